@@ -1,0 +1,372 @@
+package jacobian
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+
+	"github.com/loopwright/loopwright/model"
+)
+
+// Program is a compiled model: one tape per equation, output and define. It
+// is immutable after Compile and safe for concurrent use through separate
+// Evals.
+type Program struct {
+	nx, np  int
+	eqs     []*tape
+	outs    []*tape
+	defs    []*tape
+	pattern *Sparse // structure of dF/dx, Val nil
+	maxOps  int     // longest tape, for the work buffers
+	xNames  []string
+	pNames  []string
+	xTyp    []float64 // typical magnitudes for finite-difference steps
+	pTyp    []float64
+}
+
+// Compile compiles the equations, outputs and defines of sys into tapes. It
+// fails when a formula made only of constants has no finite value (the error
+// is an *EvalError at its position), or when the system refers to an unknown
+// or parameter that does not exist.
+func Compile(sys *model.System) (*Program, error) {
+	prog := &Program{nx: len(sys.Unknowns), np: len(sys.Params)}
+	prog.xNames, prog.xTyp = names(sys.Unknowns)
+	prog.pNames, prog.pTyp = names(sys.Params)
+
+	var errs []error
+	compileAll := func(kind string, name func(int) string, expr func(int) model.Node, pos func(int) model.Pos, n int) []*tape {
+		tapes := make([]*tape, 0, n)
+		for i := 0; i < n; i++ {
+			t, err := prog.compile(kind, name(i), pos(i), expr(i))
+			if err != nil {
+				errs = append(errs, err)
+				continue
+			}
+			tapes = append(tapes, t)
+			prog.maxOps = max(prog.maxOps, len(t.ops))
+		}
+		return tapes
+	}
+	prog.eqs = compileAll("equation",
+		func(i int) string { return sys.Equations[i].Name },
+		func(i int) model.Node { return sys.Equations[i].Residual },
+		func(i int) model.Pos { return sys.Equations[i].Pos },
+		len(sys.Equations))
+	prog.outs = compileAll("output",
+		func(i int) string { return sys.Outputs[i].Name },
+		func(i int) model.Node { return sys.Outputs[i].Expr },
+		func(i int) model.Pos { return sys.Outputs[i].Pos },
+		len(sys.Outputs))
+	prog.defs = compileAll("define",
+		func(i int) string { return sys.Defines[i].Name },
+		func(i int) model.Node { return sys.Defines[i].Expr },
+		func(i int) model.Pos { return sys.Defines[i].Pos },
+		len(sys.Defines))
+	if len(errs) > 0 {
+		return nil, errors.Join(errs...)
+	}
+
+	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
+	for i, t := range prog.eqs {
+		for _, r := range t.vars {
+			pat.ColIdx = append(pat.ColIdx, int(r.index))
+		}
+		pat.RowPtr[i+1] = len(pat.ColIdx)
+	}
+	prog.pattern = pat
+	return prog, nil
+}
+
+func names(syms []model.Symbol) ([]string, []float64) {
+	n := make([]string, len(syms))
+	typ := make([]float64, len(syms))
+	for i, s := range syms {
+		n[i] = s.Name
+		typ[i] = math.Abs(s.Value)
+		if typ[i] == 0 || !finite(typ[i]) {
+			typ[i] = 1
+		}
+	}
+	return n, typ
+}
+
+// NumEquations returns the number of equations: the length of the residual.
+func (p *Program) NumEquations() int { return len(p.eqs) }
+
+// NumUnknowns returns the number of unknowns: the length of x.
+func (p *Program) NumUnknowns() int { return p.nx }
+
+// NumParams returns the number of parameters: the length of p.
+func (p *Program) NumParams() int { return p.np }
+
+// NumOutputs returns the number of outputs.
+func (p *Program) NumOutputs() int { return len(p.outs) }
+
+// NumDefines returns the number of defines.
+func (p *Program) NumDefines() int { return len(p.defs) }
+
+// Pattern returns a copy of the structure of dF/dx (Val nil), rows sorted by
+// column. An entry is present when the unknown appears in the equation after
+// constant folding; its value may still be zero at some points.
+func (p *Program) Pattern() *Sparse { return p.pattern.clone(false) }
+
+// NewJacobian returns a matrix with the structure of dF/dx and Val allocated,
+// the destination for Eval.Jacobian.
+func (p *Program) NewJacobian() *Sparse { return p.pattern.clone(true) }
+
+// NewEval returns a new evaluator with its own work buffers.
+func (p *Program) NewEval() *Eval {
+	return &Eval{
+		prog: p,
+		vals: make([]float64, p.maxOps),
+		adj:  make([]float64, p.maxOps),
+		padj: make([]float64, p.np),
+		xw:   make([]float64, p.nx),
+		pw:   make([]float64, p.np),
+		f1:   make([]float64, len(p.eqs)),
+		f2:   make([]float64, len(p.eqs)),
+	}
+}
+
+// ref is a compiled subexpression: a slot of the tape, or a constant not yet
+// placed on the tape (so constant subtrees fold without leaving dead ops).
+type ref struct {
+	slot    int32
+	isConst bool
+	c       float64
+}
+
+type compiler struct {
+	prog   *Program
+	t      *tape
+	memo   map[model.Node]ref
+	vars   map[int]int32
+	params map[int]int32
+	consts map[uint64]int32
+}
+
+func (p *Program) compile(kind, name string, pos model.Pos, n model.Node) (*tape, error) {
+	t := &tape{name: name, kind: kind, pos: pos}
+	if n == nil {
+		return nil, fmt.Errorf("%s: jacobian: %s %q has no formula", pos, kind, name)
+	}
+	c := &compiler{
+		prog:   p,
+		t:      t,
+		memo:   map[model.Node]ref{},
+		vars:   map[int]int32{},
+		params: map[int]int32{},
+		consts: map[uint64]int32{},
+	}
+	r, err := c.node(n)
+	if err != nil {
+		return nil, err
+	}
+	t.root = c.slot(r, n.At())
+	for idx, slot := range c.vars {
+		t.vars = append(t.vars, varRef{slot: slot, index: int32(idx)})
+	}
+	for idx, slot := range c.params {
+		t.params = append(t.params, varRef{slot: slot, index: int32(idx)})
+	}
+	sort.Slice(t.vars, func(i, j int) bool { return t.vars[i].index < t.vars[j].index })
+	sort.Slice(t.params, func(i, j int) bool { return t.params[i].index < t.params[j].index })
+	return t, nil
+}
+
+func (c *compiler) emit(o op, at model.Pos, what string) int32 {
+	c.t.ops = append(c.t.ops, o)
+	c.t.at = append(c.t.at, at)
+	c.t.what = append(c.t.what, what)
+	return int32(len(c.t.ops) - 1)
+}
+
+// slot places r on the tape (a constant gets a load, shared by value).
+func (c *compiler) slot(r ref, at model.Pos) int32 {
+	if !r.isConst {
+		return r.slot
+	}
+	bits := math.Float64bits(r.c)
+	if s, ok := c.consts[bits]; ok {
+		return s
+	}
+	s := c.emit(op{code: opConst, c: r.c}, at, "constant")
+	c.consts[bits] = s
+	return s
+}
+
+func (c *compiler) node(n model.Node) (ref, error) {
+	if r, ok := c.memo[n]; ok {
+		return r, nil
+	}
+	r, err := c.build(n)
+	if err != nil {
+		return ref{}, err
+	}
+	c.memo[n] = r
+	return r, nil
+}
+
+func (c *compiler) build(n model.Node) (ref, error) {
+	switch n := n.(type) {
+	case *model.Const:
+		if !finite(n.Value) {
+			return ref{}, c.errAt(n.Pos, "constant", fmt.Sprintf("constant is not finite (%g)", n.Value))
+		}
+		return ref{isConst: true, c: n.Value}, nil
+	case *model.Var:
+		return c.load(n.Index, n.Pos, c.vars, opVar, c.prog.xNames, "unknown")
+	case *model.Param:
+		return c.load(n.Index, n.Pos, c.params, opParam, c.prog.pNames, "parameter")
+	case *model.Neg:
+		x, err := c.node(n.X)
+		if err != nil {
+			return ref{}, err
+		}
+		return c.apply(opNeg, n.Pos, "-", 0, x)
+	case *model.Binary:
+		l, err := c.node(n.L)
+		if err != nil {
+			return ref{}, err
+		}
+		r, err := c.node(n.R)
+		if err != nil {
+			return ref{}, err
+		}
+		switch n.Op {
+		case model.OpAdd:
+			return c.apply(opAdd, n.Pos, "+", 0, l, r)
+		case model.OpSub:
+			return c.apply(opSub, n.Pos, "-", 0, l, r)
+		case model.OpMul:
+			return c.apply(opMul, n.Pos, "*", 0, l, r)
+		case model.OpDiv:
+			return c.apply(opDiv, n.Pos, "/", 0, l, r)
+		case model.OpPow:
+			return c.pow(n.Pos, "^", l, r)
+		}
+		return ref{}, fmt.Errorf("%s: jacobian: unknown operator %q", n.Pos, string(n.Op))
+	case *model.Call:
+		args := make([]ref, len(n.Args))
+		for i, a := range n.Args {
+			r, err := c.node(a)
+			if err != nil {
+				return ref{}, err
+			}
+			args[i] = r
+		}
+		return c.call(n, args)
+	}
+	panic(fmt.Sprintf("jacobian: undefined node type %T", n))
+}
+
+func (c *compiler) load(idx int, at model.Pos, seen map[int]int32, code opcode, names []string, what string) (ref, error) {
+	if idx < 0 || idx >= len(names) {
+		return ref{}, fmt.Errorf("%s: jacobian: %s index %d out of range [0, %d) in %s %q", at, what, idx, len(names), c.t.kind, c.t.name)
+	}
+	if s, ok := seen[idx]; ok {
+		return ref{slot: s}, nil
+	}
+	s := c.emit(op{code: code, a: int32(idx)}, at, names[idx])
+	seen[idx] = s
+	return ref{slot: s}, nil
+}
+
+func (c *compiler) call(n *model.Call, args []ref) (ref, error) {
+	want := 1
+	switch n.Fn {
+	case model.FnMin, model.FnMax:
+		want = 2
+	case model.FnPow:
+		want = 2
+	}
+	if len(args) < want || (n.Fn != model.FnMin && n.Fn != model.FnMax && len(args) != want) {
+		return ref{}, fmt.Errorf("%s: jacobian: %s takes %d argument(s), got %d", n.Pos, n.Fn, want, len(args))
+	}
+	what := string(n.Fn)
+	switch n.Fn {
+	case model.FnExp:
+		return c.apply(opExp, n.Pos, what, 0, args[0])
+	case model.FnLog:
+		return c.apply(opLog, n.Pos, what, 0, args[0])
+	case model.FnLog10:
+		return c.apply(opLog10, n.Pos, what, 0, args[0])
+	case model.FnSqrt:
+		return c.apply(opSqrt, n.Pos, what, 0, args[0])
+	case model.FnAbs:
+		return c.apply(opAbs, n.Pos, what, 0, args[0])
+	case model.FnPow:
+		return c.pow(n.Pos, what, args[0], args[1])
+	case model.FnMin, model.FnMax:
+		code := opMin
+		if n.Fn == model.FnMax {
+			code = opMax
+		}
+		acc := args[0]
+		for _, a := range args[1:] {
+			var err error
+			if acc, err = c.apply(code, n.Pos, what, 0, acc, a); err != nil {
+				return ref{}, err
+			}
+		}
+		return acc, nil
+	}
+	return ref{}, fmt.Errorf("%s: jacobian: unknown function %q", n.Pos, n.Fn)
+}
+
+// pow compiles base^exponent: a square, a constant power, or the general
+// form when the exponent varies.
+func (c *compiler) pow(at model.Pos, what string, base, exp ref) (ref, error) {
+	if !exp.isConst {
+		return c.apply(opPow, at, what, 0, base, exp)
+	}
+	switch exp.c {
+	case 1:
+		return base, nil
+	case 2:
+		return c.apply(opSq, at, what, 0, base)
+	}
+	return c.apply(opPowC, at, what, exp.c, base)
+}
+
+// apply emits an operation, or folds it when every operand is a constant.
+func (c *compiler) apply(code opcode, at model.Pos, what string, k float64, args ...ref) (ref, error) {
+	folded := true
+	for _, a := range args {
+		folded = folded && a.isConst
+	}
+	if folded {
+		return c.fold(code, at, what, k, args)
+	}
+	o := op{code: code, c: k}
+	o.a = c.slot(args[0], at)
+	if len(args) > 1 {
+		o.b = c.slot(args[1], at)
+	}
+	return ref{slot: c.emit(o, at, what)}, nil
+}
+
+// fold evaluates an operation on constants with the same code that evaluates
+// tapes, so folding and evaluation cannot disagree.
+func (c *compiler) fold(code opcode, at model.Pos, what string, k float64, args []ref) (ref, error) {
+	mini := &tape{name: c.t.name, kind: c.t.kind}
+	for _, a := range args {
+		mini.ops = append(mini.ops, op{code: opConst, c: a.c})
+		mini.at = append(mini.at, at)
+		mini.what = append(mini.what, "constant")
+	}
+	mini.ops = append(mini.ops, op{code: code, a: 0, b: 1, c: k})
+	mini.at = append(mini.at, at)
+	mini.what = append(mini.what, what)
+	mini.root = int32(len(mini.ops) - 1)
+	v := make([]float64, len(mini.ops))
+	if r := mini.forward(v, nil, nil); !finite(r) {
+		return ref{}, mini.valueFault(v)
+	}
+	return ref{isConst: true, c: v[mini.root]}, nil
+}
+
+func (c *compiler) errAt(at model.Pos, what, msg string) *EvalError {
+	return &EvalError{Pos: at, Equation: c.t.name, Kind: c.t.kind, Op: what, Msg: msg}
+}

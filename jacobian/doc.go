@@ -1,0 +1,29 @@
+// Package jacobian compiles an expanded model into flat evaluation tapes that
+// compute residuals in SI and their exact sparse derivatives by automatic
+// differentiation.
+//
+// Compile turns every equation, output and define of a model.System into a
+// tape: a short list of operations (load an unknown, load a parameter, a
+// constant, + - * /, powers, exp, log, log10, sqrt, abs, min, max), each kept
+// with the position in the model file of the formula that produced it. A
+// subtree shared by pointer (a define used several times) is computed once per
+// tape, and subtrees made only of constants are folded when compiling.
+//
+// Derivatives are exact: one forward sweep and one reverse (adjoint) sweep per
+// tape give the whole row of dF/dx and dF/dp. Finite differences are provided
+// only as a cross-check (JacobianFD, ParamJacobianFD).
+//
+// A Program is immutable and may be shared by many goroutines; each goroutine
+// evaluates through its own Eval, which holds the work buffers. Eval methods do
+// not allocate.
+//
+// Non-smooth functions take one-sided derivatives: abs has derivative +1 at 0
+// (the right-hand derivative); at a tie min and max follow their leftmost
+// argument tied for the result.
+//
+// A value that is not finite (NaN or ±Inf) is reported as an *EvalError at
+// the first operation that produced it, with the reason: the log of a
+// non-positive value, the square root of a negative value, a division by zero,
+// a negative base raised to a non-integer power, an overflow, or a derivative
+// that is infinite (sqrt at 0, for instance).
+package jacobian

@@ -1,0 +1,197 @@
+package jacobian
+
+import (
+	"fmt"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Eval evaluates a Program with its own work buffers. It is not safe for
+// concurrent use; give each goroutine its own (Program.NewEval). Its methods
+// do not allocate, and never modify x or p.
+//
+// Every method checks shapes: a slice or matrix of the wrong size is a
+// programming error and panics. Values that are not finite are returned as an
+// *EvalError naming the first formula that produced one; the destination is
+// then only partly filled.
+type Eval struct {
+	prog   *Program
+	vals   []float64 // forward values of the current tape
+	adj    []float64 // adjoints of the current tape
+	padj   []float64 // parameter adjoints, scattered by index, kept zero between uses
+	xw, pw []float64 // perturbed copies of x and p for finite differences
+	f1, f2 []float64 // residuals for finite differences
+}
+
+func (e *Eval) check(x, p []float64) {
+	if len(x) != e.prog.nx {
+		panic(fmt.Sprintf("jacobian: len(x) = %d, want %d", len(x), e.prog.nx))
+	}
+	if len(p) != e.prog.np {
+		panic(fmt.Sprintf("jacobian: len(p) = %d, want %d", len(p), e.prog.np))
+	}
+}
+
+func checkLen(what string, got, want int) {
+	if got != want {
+		panic(fmt.Sprintf("jacobian: len(%s) = %d, want %d", what, got, want))
+	}
+}
+
+func checkDims(what string, m *mat.Dense, r, c int) {
+	if mr, mc := m.Dims(); mr != r || mc != c {
+		panic(fmt.Sprintf("jacobian: %s is %d×%d, want %d×%d", what, mr, mc, r, c))
+	}
+}
+
+// value evaluates one tape and checks the result is finite.
+func (e *Eval) value(t *tape, x, p []float64) (float64, error) {
+	r := t.forward(e.vals, x, p)
+	if !finite(r) {
+		return r, t.valueFault(e.vals)
+	}
+	return r, nil
+}
+
+func (e *Eval) values(dst []float64, tapes []*tape, x, p []float64) error {
+	for i, t := range tapes {
+		r, err := e.value(t, x, p)
+		if err != nil {
+			return err
+		}
+		dst[i] = r
+	}
+	return nil
+}
+
+// Residual sets dst[i] = F_i(x, p), the residual of equation i (lhs - rhs).
+func (e *Eval) Residual(dst, x, p []float64) error {
+	e.check(x, p)
+	checkLen("dst", len(dst), len(e.prog.eqs))
+	return e.values(dst, e.prog.eqs, x, p)
+}
+
+// Outputs sets dst[i] to the value of output i.
+func (e *Eval) Outputs(dst, x, p []float64) error {
+	e.check(x, p)
+	checkLen("dst", len(dst), len(e.prog.outs))
+	return e.values(dst, e.prog.outs, x, p)
+}
+
+// Defines sets dst[i] to the value of define i.
+func (e *Eval) Defines(dst, x, p []float64) error {
+	e.check(x, p)
+	checkLen("dst", len(dst), len(e.prog.defs))
+	return e.values(dst, e.prog.defs, x, p)
+}
+
+// Jacobian fills dst.Val with dF/dx at (x, p), in the order of Pattern. dst
+// must have the structure of Program.NewJacobian.
+func (e *Eval) Jacobian(dst *Sparse, x, p []float64) error {
+	return e.ResidualJacobian(nil, dst, x, p)
+}
+
+// ResidualJacobian computes the residual into f and dF/dx into dst.Val in one
+// pass. f may be nil when only the Jacobian is wanted.
+func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error {
+	e.check(x, p)
+	if f != nil {
+		checkLen("f", len(f), len(e.prog.eqs))
+	}
+	pat := e.prog.pattern
+	if dst.Rows != pat.Rows || dst.Cols != pat.Cols || len(dst.Val) != len(pat.ColIdx) {
+		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
+	}
+	for i, t := range e.prog.eqs {
+		r, err := e.gradient(t, x, p)
+		if err != nil {
+			return err
+		}
+		if f != nil {
+			f[i] = r
+		}
+		row := dst.Val[pat.RowPtr[i]:pat.RowPtr[i+1]]
+		for k, vr := range t.vars {
+			row[k] = e.adj[vr.slot]
+		}
+	}
+	return nil
+}
+
+// gradient runs the forward and reverse sweeps of t, leaving the adjoint of
+// every slot in e.adj, and checks that the value and the derivatives with
+// respect to every loaded symbol are finite.
+func (e *Eval) gradient(t *tape, x, p []float64) (float64, error) {
+	r, err := e.value(t, x, p)
+	if err != nil {
+		return r, err
+	}
+	t.reverse(e.adj, e.vals)
+	for _, vr := range t.vars {
+		if !finite(e.adj[vr.slot]) {
+			return r, t.derivFault(e.vals, e.prog.xNames[vr.index])
+		}
+	}
+	for _, vr := range t.params {
+		if !finite(e.adj[vr.slot]) {
+			return r, t.derivFault(e.vals, e.prog.pNames[vr.index])
+		}
+	}
+	return r, nil
+}
+
+// ParamJacobian sets column k of dst to dF/dp[cols[k]] at (x, p); dst has one
+// row per equation and len(cols) columns.
+func (e *Eval) ParamJacobian(dst *mat.Dense, x, p []float64, cols []int) error {
+	e.check(x, p)
+	checkDims("dst", dst, len(e.prog.eqs), len(cols))
+	return e.gradRows(nil, dst, e.prog.eqs, x, p, cols)
+}
+
+// OutputGradients sets dx to dy/dx (one row per output, one column per
+// unknown) and, when dp is not nil, column k of dp to dy/dp[cols[k]].
+func (e *Eval) OutputGradients(dx, dp *mat.Dense, x, p []float64, cols []int) error {
+	e.check(x, p)
+	nout := len(e.prog.outs)
+	checkDims("dx", dx, nout, e.prog.nx)
+	if dp != nil {
+		checkDims("dp", dp, nout, len(cols))
+	}
+	return e.gradRows(dx, dp, e.prog.outs, x, p, cols)
+}
+
+// gradRows sets dx[i][j] = d tapes[i] / d x[j] when dx is not nil, and
+// dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil.
+func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, x, p []float64, cols []int) error {
+	if dp != nil {
+		for _, c := range cols {
+			if c < 0 || c >= e.prog.np {
+				panic(fmt.Sprintf("jacobian: parameter column %d out of range [0, %d)", c, e.prog.np))
+			}
+		}
+	}
+	for i, t := range tapes {
+		if _, err := e.gradient(t, x, p); err != nil {
+			return err
+		}
+		if dx != nil {
+			row := dx.RawRowView(i)
+			clear(row)
+			for _, vr := range t.vars {
+				row[vr.index] = e.adj[vr.slot]
+			}
+		}
+		if dp != nil {
+			for _, vr := range t.params {
+				e.padj[vr.index] = e.adj[vr.slot]
+			}
+			for k, c := range cols {
+				dp.Set(i, k, e.padj[c])
+			}
+			for _, vr := range t.params {
+				e.padj[vr.index] = 0
+			}
+		}
+	}
+	return nil
+}
