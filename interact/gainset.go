@@ -1,0 +1,135 @@
+package interact
+
+import (
+	"fmt"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Signal describes one row or column of a gain matrix: an output, an input or
+// a disturbance.
+type Signal struct {
+	Name    string  // "xD", "T[3]"
+	Unit    string  // display unit, "" when dimensionless or unknown
+	Scale   float64 // SI per display unit, for differences; 0 when unknown
+	Span    float64 // expected range in display units; 0 = not given
+	Nominal float64 // nominal value in display units
+}
+
+// GainSet is a steady-state gain matrix with the signals it relates.
+type GainSet struct {
+	Outputs, Inputs, Disturbances []Signal
+
+	K  *mat.Dense // dy/du in display units: rows outputs, columns inputs
+	Kd *mat.Dense // dy/dd in display units; nil when there are no disturbances
+
+	Source string // "model" or the file the gains were read from
+}
+
+// Scaling selects how Scaled makes the gains dimensionless.
+type Scaling int
+
+const (
+	ScaleNone    Scaling = iota // gains as given, in display units
+	ScaleSpan                   // K_ij × span(u_j) / span(y_i)
+	ScaleNominal                // K_ij × nominal(u_j) / nominal(y_i)
+)
+
+var scalingNames = [...]string{ScaleNone: "none", ScaleSpan: "span", ScaleNominal: "nominal"}
+
+func (s Scaling) String() string {
+	if s >= 0 && int(s) < len(scalingNames) {
+		return scalingNames[s]
+	}
+	return fmt.Sprintf("Scaling(%d)", int(s))
+}
+
+// ParseScaling reads "none", "span" or "nominal".
+func ParseScaling(s string) (Scaling, error) {
+	for i, n := range scalingNames {
+		if strings.EqualFold(strings.TrimSpace(s), n) {
+			return Scaling(i), nil
+		}
+	}
+	return 0, fmt.Errorf("interact: unknown scaling %q: use none, span or nominal", s)
+}
+
+// Scaled returns the gain matrices scaled by s. Span scaling divides each row
+// by its output's span and multiplies each column by its input's (or
+// disturbance's) span; nominal scaling does the same with nominal values. The
+// error names the first signal lacking a span or having a zero nominal value.
+// The RGA and the minimised condition number do not depend on the scaling;
+// singular values, the plain condition number and disturbance gains do.
+func (g *GainSet) Scaled(s Scaling) (k, kd *mat.Dense, err error) {
+	g.check()
+	factor := func(sig Signal, role string) (float64, error) {
+		switch s {
+		case ScaleNone:
+			return 1, nil
+		case ScaleSpan:
+			if !(sig.Span > 0) || isInfOrNaN(sig.Span) {
+				return 0, fmt.Errorf("interact: span scaling needs a positive span for %s %q: give it a span", role, sig.Name)
+			}
+			return sig.Span, nil
+		case ScaleNominal:
+			if sig.Nominal == 0 || isInfOrNaN(sig.Nominal) {
+				return 0, fmt.Errorf("interact: nominal scaling needs a non-zero nominal value for %s %q: give it a nominal value or use span scaling", role, sig.Name)
+			}
+			return sig.Nominal, nil
+		}
+		return 0, fmt.Errorf("interact: unknown scaling %v", s)
+	}
+	fy := make([]float64, len(g.Outputs))
+	for i, o := range g.Outputs {
+		if fy[i], err = factor(o, "output"); err != nil {
+			return nil, nil, err
+		}
+	}
+	scale := func(m *mat.Dense, cols []Signal, role string) (*mat.Dense, error) {
+		r, c := m.Dims()
+		out := mat.NewDense(r, c, nil)
+		for j := 0; j < c; j++ {
+			fu, err := factor(cols[j], role)
+			if err != nil {
+				return nil, err
+			}
+			for i := 0; i < r; i++ {
+				out.Set(i, j, m.At(i, j)*fu/fy[i])
+			}
+		}
+		return out, nil
+	}
+	if k, err = scale(g.K, g.Inputs, "input"); err != nil {
+		return nil, nil, err
+	}
+	if g.Kd != nil {
+		if kd, err = scale(g.Kd, g.Disturbances, "disturbance"); err != nil {
+			return nil, nil, err
+		}
+	}
+	return k, kd, nil
+}
+
+// check panics when the matrices disagree with the signal lists: a
+// programmer's error, not the user's.
+func (g *GainSet) check() {
+	r, c := g.K.Dims()
+	if r != len(g.Outputs) || c != len(g.Inputs) {
+		panic(fmt.Sprintf("interact: GainSet K is %dx%d but has %d outputs and %d inputs", r, c, len(g.Outputs), len(g.Inputs)))
+	}
+	if g.Kd != nil {
+		r, c := g.Kd.Dims()
+		if r != len(g.Outputs) || c != len(g.Disturbances) {
+			panic(fmt.Sprintf("interact: GainSet Kd is %dx%d but has %d outputs and %d disturbances", r, c, len(g.Outputs), len(g.Disturbances)))
+		}
+	}
+}
+
+func names(s []Signal) []string {
+	out := make([]string, len(s))
+	for i, x := range s {
+		out[i] = x.Name
+	}
+	return out
+}

@@ -1,0 +1,167 @@
+package interact
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// SVDResult is the singular value decomposition K = U Σ Vᵀ of a gain matrix.
+type SVDResult struct {
+	Values []float64  // singular values σ_1 >= σ_2 >= ... >= 0
+	U      *mat.Dense // output directions: column i goes with Values[i]
+	V      *mat.Dense // input directions: column i goes with Values[i]
+	Cond   float64    // σ_1/σ_min, +Inf when the smallest value is zero
+}
+
+// SVD returns the thin singular value decomposition of k. The input direction
+// V[:,0] moves the outputs most per unit input (gain σ_1, in the output
+// direction U[:,0]); V[:,last] least. The signs of each (U[:,i], V[:,i]) pair
+// are not unique.
+func SVD(k mat.Matrix) (*SVDResult, error) {
+	var svd mat.SVD
+	if !svd.Factorize(k, mat.SVDThin) {
+		return nil, errSVD
+	}
+	r := &SVDResult{Values: svd.Values(nil), U: new(mat.Dense), V: new(mat.Dense)}
+	svd.UTo(r.U)
+	svd.VTo(r.V)
+	if len(r.Values) > 0 {
+		r.Cond = r.Values[0] / r.Values[len(r.Values)-1]
+	}
+	return r, nil
+}
+
+// MinConditionNumber returns the condition number of the square k minimised
+// over diagonal input and output scalings,
+//
+//	γ*(K) = min over diagonal Dl, Dr of γ(Dl K Dr),
+//
+// with the scalings that attain it (the minimum is unique only up to a
+// common factor; Dl and Dr are returned with geometric mean 1). γ* does not
+// depend on how the gains were scaled, so a large γ* means the plant itself
+// is close to singular, not merely badly scaled.
+//
+// Braatz & Morari (1994) showed √γ* = min_D σ̄(D H D⁻¹) with
+// H = [0 K⁻¹; K 0] (Skogestad & Postlethwaite eq. A.72-A.73); minimising that
+// over the common factor of D leaves exactly √γ(Dl K Dr). σ̄(e^Δ H e^-Δ) is
+// convex in the log-scalings Δ (Sezginer & Overton 1990) and so, as its
+// partial minimum, is √γ(e^a K e^b) in (a, b): any local minimum is global.
+// MinConditionNumber minimises log γ(e^a K e^b) by BFGS with the analytic
+// gradient (∂log σ_1/∂a_i = U_i1², ∂log σ_n/∂a_i = U_in², likewise V for b)
+// from an equilibrated start, then polishes with Nelder-Mead, because the
+// minimum can sit where singular values coincide and the gradient is not
+// smooth. It returns a SingularError when k is singular and panics if k is
+// not square.
+func MinConditionNumber(k mat.Matrix) (gamma float64, dl, dr []float64, err error) {
+	n, c := k.Dims()
+	if n != c {
+		panic(mat.ErrSquare)
+	}
+	kd := mat.DenseCopyOf(k)
+	if s, err := SVD(kd); err != nil {
+		return 0, nil, nil, err
+	} else if s.Values[n-1] == 0 || s.Cond > 1/0x1p-52 {
+		return 0, nil, nil, &SingularError{What: "K", Cond: s.Cond}
+	}
+	if n == 1 {
+		return 1, []float64{1}, []float64{1}, nil
+	}
+	// Variables: a_1..a_{n-1}, b_1..b_{n-1}; a_0 = b_0 = 0 fix the two
+	// free common factors.
+	a0, b0 := equilibrate(kd)
+	x0 := make([]float64, 2*(n-1))
+	for i := 1; i < n; i++ {
+		x0[i-1] = a0[i] - a0[0]
+		x0[n-1+i-1] = b0[i] - b0[0]
+	}
+	m := mat.NewDense(n, n, nil)
+	var svd mat.SVD
+	var u, v mat.Dense
+	eval := func(x []float64, wantGrad bool, grad []float64) float64 {
+		for i := 0; i < n; i++ {
+			ea := 1.0
+			if i > 0 {
+				ea = math.Exp(x[i-1])
+			}
+			for j := 0; j < n; j++ {
+				eb := 1.0
+				if j > 0 {
+					eb = math.Exp(x[n-1+j-1])
+				}
+				m.Set(i, j, ea*kd.At(i, j)*eb)
+			}
+		}
+		if !svd.Factorize(m, mat.SVDThin) {
+			return math.Inf(1)
+		}
+		s := svd.Values(nil)
+		if s[n-1] == 0 {
+			return math.Inf(1)
+		}
+		if wantGrad {
+			svd.UTo(&u)
+			svd.VTo(&v)
+			for i := 1; i < n; i++ {
+				grad[i-1] = u.At(i, 0)*u.At(i, 0) - u.At(i, n-1)*u.At(i, n-1)
+				grad[n-1+i-1] = v.At(i, 0)*v.At(i, 0) - v.At(i, n-1)*v.At(i, n-1)
+			}
+		}
+		return math.Log(s[0] / s[n-1])
+	}
+	fg := func(x, grad []float64) float64 { return eval(x, true, grad) }
+	f := func(x []float64) float64 { return eval(x, false, nil) }
+	best, bestF := bfgs(fg, x0, 500)
+	best, bestF = nelderMead(f, best, 0.1, 2000*len(x0))
+	if x, fx := bfgs(fg, best, 200); fx < bestF {
+		best, bestF = x, fx
+	}
+
+	dl, dr = make([]float64, n), make([]float64, n)
+	dl[0], dr[0] = 1, 1
+	var sa, sb float64
+	for i := 1; i < n; i++ {
+		sa += best[i-1]
+		sb += best[n-1+i-1]
+	}
+	for i := 0; i < n; i++ {
+		ea, eb := 0.0, 0.0
+		if i > 0 {
+			ea, eb = best[i-1], best[n-1+i-1]
+		}
+		dl[i] = math.Exp(ea - sa/float64(n))
+		dr[i] = math.Exp(eb - sb/float64(n))
+	}
+	return math.Exp(bestF), dl, dr, nil
+}
+
+// equilibrate returns log-scalings a, b that make the rows and columns of
+// e^a |K| e^b have roughly equal 2-norms (a few alternating sweeps), a good
+// start for the minimisation.
+func equilibrate(k *mat.Dense) (a, b []float64) {
+	n, _ := k.Dims()
+	a, b = make([]float64, n), make([]float64, n)
+	for sweep := 0; sweep < 10; sweep++ {
+		for i := 0; i < n; i++ {
+			s := 0.0
+			for j := 0; j < n; j++ {
+				x := k.At(i, j) * math.Exp(a[i]+b[j])
+				s += x * x
+			}
+			if s > 0 {
+				a[i] -= 0.5 * math.Log(s)
+			}
+		}
+		for j := 0; j < n; j++ {
+			s := 0.0
+			for i := 0; i < n; i++ {
+				x := k.At(i, j) * math.Exp(a[i]+b[j])
+				s += x * x
+			}
+			if s > 0 {
+				b[j] -= 0.5 * math.Log(s)
+			}
+		}
+	}
+	return a, b
+}
