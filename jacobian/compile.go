@@ -339,6 +339,9 @@ func (c *compiler) apply(code opcode, at model.Pos, what string, k float64, args
 	if folded {
 		return c.fold(code, at, what, k, args)
 	}
+	if code == opDiv && args[1].isConst && args[1].c == 0 {
+		return ref{}, c.errAt(at, what, "division by zero")
+	}
 	o := op{code: code, c: k}
 	o.a = c.slot(args[0], at)
 	if len(args) > 1 {

@@ -237,10 +237,13 @@ func finite(f float64) bool { return f-f == 0 }
 func (t *tape) valueFault(v []float64) *EvalError {
 	for k, o := range t.ops[:t.root+1] {
 		if msg := opValueFault(o, v, k); msg != "" {
+			if o.code == opVar || o.code == opParam {
+				msg = t.what[k] + " " + msg
+			}
 			return t.errAt(k, msg)
 		}
 	}
-	return t.errAt(int(t.root), fmt.Sprintf("value is not finite (%g)", v[t.root]))
+	return t.errAt(int(t.root), fmt.Sprintf("value is not finite (%.6g)", v[t.root]))
 }
 
 // opValueFault says what is wrong with op k, or "" when nothing is.
@@ -262,20 +265,20 @@ func opValueFault(o op, v []float64, k int) string {
 	switch o.code {
 	case opVar, opParam, opConst:
 		if !finite(r) {
-			return fmt.Sprintf("value is %g", r)
+			return fmt.Sprintf("is %.6g", r)
 		}
 		return ""
 	case opLog, opLog10:
 		if a <= 0 {
-			return fmt.Sprintf("log of a non-positive value (%g)", a)
+			return fmt.Sprintf("log of a non-positive value (%.6g)", a)
 		}
 	case opSqrt:
 		if a < 0 {
-			return fmt.Sprintf("sqrt of a negative value (%g)", a)
+			return fmt.Sprintf("sqrt of a negative value (%.6g)", a)
 		}
 	case opDiv:
 		if b == 0 {
-			return fmt.Sprintf("division by zero (numerator %g)", a)
+			return fmt.Sprintf("division by zero (numerator %.6g)", a)
 		}
 	case opPowC, opPow:
 		c := o.c
@@ -283,14 +286,14 @@ func opValueFault(o op, v []float64, k int) string {
 			c = b
 		}
 		if a < 0 && c != math.Trunc(c) {
-			return fmt.Sprintf("negative base (%g) to a non-integer power (%g)", a, c)
+			return fmt.Sprintf("negative base (%.6g) to a non-integer power (%.6g)", a, c)
 		}
 		if a == 0 && c < 0 {
-			return fmt.Sprintf("zero to a negative power (%g)", c)
+			return fmt.Sprintf("zero to a negative power (%.6g)", c)
 		}
 	}
 	if !finite(r) {
-		return fmt.Sprintf("result overflows (%g)", r)
+		return fmt.Sprintf("result overflows (%.6g)", r)
 	}
 	return ""
 }
@@ -310,10 +313,10 @@ func (t *tape) derivFault(v []float64, wrt string) *EvalError {
 		switch o.code {
 		case opPow:
 			if a < 0 {
-				return t.errAt(k, fmt.Sprintf("a negative base (%g) to a varying power has no real derivative with respect to the power", a))
+				return t.errAt(k, fmt.Sprintf("a negative base (%.6g) to a varying power has no real derivative with respect to the power", a))
 			}
 		}
-		return t.errAt(k, fmt.Sprintf("%s has an infinite derivative at %g", t.what[k], a))
+		return t.errAt(k, fmt.Sprintf("%s has an infinite derivative at %.6g", t.what[k], a))
 	}
 	return t.errAt(int(t.root), "derivative with respect to "+wrt+" is not finite")
 }
