@@ -8,22 +8,22 @@ import (
 // Axis is one axis of a sweep: a parameter slot of the model and the range
 // it moves over. From and To are in coherent SI.
 type Axis struct {
-	Name   string  // the parameter's model name: "F", "z_feed"
-	Param  int     // the slot in the parameter vector p
-	From   float64 // SI
-	To     float64 // SI
-	Points int     // grid points along the axis (at least 2; 1 pins the value at From)
-	Log    bool    // logarithmic spacing (From and To of one sign, non-zero)
+	Name   string  `json:"name"`          // the parameter's model name: "F", "z_feed"
+	Param  int     `json:"param"`         // the slot in the parameter vector p
+	From   float64 `json:"from"`          // SI
+	To     float64 `json:"to"`            // SI
+	Points int     `json:"points"`        // grid points along the axis (1 pins the value at From)
+	Log    bool    `json:"log,omitempty"` // logarithmic spacing (a range above zero)
 
 	// Nominal is the parameter's nominal value (SI): scattered designs start
 	// their chains from the point nearest to it.
-	Nominal float64
+	Nominal float64 `json:"nominal"`
 
 	// Unit is the display unit: display = (SI - Offset) / Scale. A zero
 	// Scale means 1.
-	Unit   string
-	Scale  float64
-	Offset float64
+	Unit   string  `json:"unit,omitempty"`
+	Scale  float64 `json:"scale,omitempty"`
+	Offset float64 `json:"offset,omitempty"`
 }
 
 // Display converts an SI value on the axis to its display unit.

@@ -1,0 +1,220 @@
+package sweep
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"runtime"
+	"sync"
+)
+
+// Worker solves and analyses one operating point. Run gives each goroutine
+// its own Worker, so a Worker may keep scratch space.
+type Worker interface {
+	// Point solves the steady state at parameters p, starting from x0, and
+	// fills rec's Iterations and analysis fields (Outputs, K, RGA, Det,
+	// Cond, Best, NI, Pass) in display units. It returns the converged
+	// state, which Run uses to start the next points of the chain.
+	//
+	// A point that does not converge returns a nil state and an error
+	// saying why. A point that converges but cannot be analysed returns the
+	// state and an error. Point must not keep p, x0 or rec.
+	Point(ctx context.Context, p, x0 []float64, rec *Record) (x []float64, err error)
+}
+
+// Problem is a sweep ready to run.
+type Problem struct {
+	Header *Header
+	Plan   *Plan
+	// Nominal is the parameter vector at the nominal point; each point
+	// overrides the axes' slots.
+	Nominal []float64
+	// Start is the converged state at the nominal point: every chain's first
+	// point starts from it, and so does a retry after a failed continuation.
+	Start []float64
+	// NewWorker returns a Worker for one goroutine.
+	NewWorker func() Worker
+}
+
+// Options are how to run a sweep. A nil *Options means the defaults.
+type Options struct {
+	// Workers is the number of goroutines; 0 means GOMAXPROCS. The records
+	// do not depend on it.
+	Workers int
+	// Shard restricts the run to a share of the chains. The zero value runs
+	// everything.
+	Shard Shard
+	// Done marks points already on disk (resuming): they are not emitted
+	// again. Chains with some points done are solved again from their start,
+	// so the new points equal an uninterrupted run's.
+	Done map[int]bool
+	// Progress, if set, is called from Run's goroutine after each emitted
+	// record with the number emitted so far and the number to emit.
+	Progress func(done, total int)
+}
+
+// Run solves the plan's points of the shard and calls emit for each record
+// in increasing point order, from the calling goroutine. A failed point is
+// emitted with its reason, never dropped.
+//
+// When ctx is cancelled, Run stops starting points, emits every finished
+// point (the in-order ones first, then any that finished out of order, in
+// increasing order) and returns an error wrapping ctx.Err(). An error from
+// emit stops the run and is returned.
+func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) error) error {
+	if opts == nil {
+		opts = &Options{}
+	}
+	if err := opts.Shard.Check(); err != nil {
+		return err
+	}
+	plan := prob.Plan
+	if len(prob.Start) == 0 && prob.NewWorker == nil {
+		panic("sweep: Problem without a start state or worker")
+	}
+	var todo []int // points to emit, in order
+	for _, i := range plan.PointsOf(opts.Shard) {
+		if !opts.Done[i] {
+			todo = append(todo, i)
+		}
+	}
+	var chains []int
+	for _, c := range plan.ChainsOf(opts.Shard) {
+		for _, s := range plan.Chains[c] {
+			if !opts.Done[s.Point] {
+				chains = append(chains, c)
+				break
+			}
+		}
+	}
+	workers := opts.Workers
+	if workers <= 0 {
+		workers = runtime.GOMAXPROCS(0)
+	}
+	workers = min(workers, max(len(chains), 1))
+
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	jobs := make(chan int)
+	results := make(chan *Record, 4*workers)
+	var wg sync.WaitGroup
+	for w := 0; w < workers; w++ {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			wk := prob.NewWorker()
+			for c := range jobs {
+				if !solveChain(ctx, prob, wk, plan.Chains[c], opts.Done, results) {
+					return
+				}
+			}
+		}()
+	}
+	go func() {
+		defer close(jobs)
+		for _, c := range chains {
+			select {
+			case jobs <- c:
+			case <-ctx.Done():
+				return
+			}
+		}
+	}()
+	go func() { wg.Wait(); close(results) }()
+
+	pending := map[int]*Record{}
+	next, emitted := 0, 0
+	var emitErr error
+	put := func(r *Record) {
+		if emitErr != nil {
+			return
+		}
+		if emitErr = emit(r); emitErr != nil {
+			cancel()
+			return
+		}
+		emitted++
+		if opts.Progress != nil {
+			opts.Progress(emitted, len(todo))
+		}
+	}
+	for r := range results {
+		pending[r.Index] = r
+		for next < len(todo) && pending[todo[next]] != nil {
+			put(pending[todo[next]])
+			delete(pending, todo[next])
+			next++
+		}
+	}
+	// Cancelled or failed: keep whatever finished beyond a gap, in order.
+	for ; next < len(todo); next++ {
+		if r := pending[todo[next]]; r != nil {
+			put(r)
+		}
+	}
+	if emitErr != nil {
+		return emitErr
+	}
+	if emitted < len(todo) {
+		if err := ctx.Err(); err != nil {
+			return fmt.Errorf("sweep stopped after %d of %d points: %w", emitted, len(todo), err)
+		}
+		return fmt.Errorf("sweep: %d of %d points missing", len(todo)-emitted, len(todo))
+	}
+	return nil
+}
+
+// solveChain solves one chain in order and sends the records of points not
+// yet done. It returns false when the context was cancelled.
+func solveChain(ctx context.Context, prob *Problem, wk Worker, chain []Step, done map[int]bool, out chan<- *Record) bool {
+	p := append([]float64(nil), prob.Nominal...)
+	states := make(map[int][]float64, len(chain))
+	for _, s := range chain {
+		if ctx.Err() != nil {
+			return false
+		}
+		x0 := states[s.Parent]
+		fromNominal := x0 == nil
+		if fromNominal {
+			x0 = prob.Start
+		}
+		vals := prob.Plan.Points[s.Point]
+		for a, ax := range prob.Plan.Axes {
+			p[ax.Param] = vals[a]
+		}
+		rec := newRecord(prob, s.Point)
+		x, err := wk.Point(ctx, p, x0, rec)
+		if x == nil && err != nil && !fromNominal && ctx.Err() == nil {
+			// Continuation failed: try once more from the nominal state.
+			rec = newRecord(prob, s.Point)
+			x, err = wk.Point(ctx, p, prob.Start, rec)
+		}
+		if ctx.Err() != nil {
+			return false // the point may be half done: leave it to a resume
+		}
+		rec.Converged = x != nil
+		if err != nil {
+			rec.Reason = err.Error()
+		} else if x == nil {
+			rec.Reason = "no solution"
+		}
+		if x != nil {
+			states[s.Point] = append([]float64(nil), x...)
+		}
+		rec.normalize()
+		if done[s.Point] {
+			continue
+		}
+		out <- rec // the collector drains until every worker is done
+	}
+	return true
+}
+
+func newRecord(prob *Problem, i int) *Record {
+	r := &Record{Index: i, Det: math.NaN(), Cond: math.NaN()}
+	r.Values = make([]float64, len(prob.Plan.Axes))
+	for a, ax := range prob.Plan.Axes {
+		r.Values[a] = ax.Display(prob.Plan.Points[i][a])
+	}
+	return r
+}
