@@ -164,13 +164,13 @@ func powText(sym string, r Rat) string {
 }
 
 // expText writes an exponent as it would be typed after "^": "2", "-1",
-// "0.5", "(1/3)".
+// "0.5", "(1/3)", "(1/64)". Parse reads back whatever it writes.
 func expText(r Rat) string {
 	r = r.canon()
 	if r.Den == 1 {
 		return r.String()
 	}
-	if s, ok := r.decimal(); ok {
+	if s, ok := r.decimal(); ok && decimals(s) <= maxExpDecimals {
 		return s
 	}
 	return "(" + r.String() + ")"
@@ -224,4 +224,12 @@ var knownDims = []struct {
 	{dimOf(-1, 1, -1, 0, 0, 0, 0), "Pa*s"},
 	{dimOf(2, 0, -1, 0, 0, 0, 0), "m^2/s"},
 	{dimOf(0, 0, -1, 0, 1, 0, 0), "K/s"},
+}
+
+// decimals counts the digits after the point in a decimal number.
+func decimals(s string) int {
+	if i := strings.IndexByte(s, '.'); i >= 0 {
+		return len(s) - i - 1
+	}
+	return 0
 }

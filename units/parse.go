@@ -542,7 +542,7 @@ func (p *parser) lookup(t token) (*def, int, error) {
 		}
 		if refused == "" && strings.HasPrefix(rest, pf.sym) {
 			// A doubled letter ("hh", "mmin") is a typing slip, not a prefix.
-			return nil, 0, p.errAt(t, fmt.Sprintf("unknown unit %q; did you mean %q?", sym, rest))
+			refused = fmt.Sprintf("unknown unit %q; did you mean %q?", sym, rest)
 		}
 		if refused == "" {
 			refused = fmt.Sprintf("SI prefix %q is not allowed on %q; write the number in %s", pf.sym, rest, rest)
@@ -600,8 +600,14 @@ func suggest(sym string) []string {
 			return []string{c}
 		}
 	}
+	// A slip is at most one edit in a short symbol and two in a long one;
+	// a one-letter symbol is too short to guess from.
+	n := utf8.RuneCountInString(sym)
+	if n < 2 {
+		return nil
+	}
 	limit := 1
-	if utf8.RuneCountInString(sym) > 4 {
+	if n > 4 {
 		limit = 2
 	}
 	best, bestD := "", limit+1
