@@ -21,8 +21,8 @@ func (b *builder) pos() model.Pos {
 }
 
 func (b *builder) num(v float64) model.Node { return &model.Const{Pos: b.pos(), Value: v} }
-func (b *builder) x(i int) model.Node        { return &model.Var{Pos: b.pos(), Index: i} }
-func (b *builder) p(i int) model.Node        { return &model.Param{Pos: b.pos(), Index: i} }
+func (b *builder) x(i int) model.Node       { return &model.Var{Pos: b.pos(), Index: i} }
+func (b *builder) p(i int) model.Node       { return &model.Param{Pos: b.pos(), Index: i} }
 func (b *builder) neg(a model.Node) model.Node {
 	return &model.Neg{Pos: b.pos(), X: a}
 }

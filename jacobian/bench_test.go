@@ -1,0 +1,75 @@
+package jacobian
+
+import (
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/loopwright/loopwright/model"
+)
+
+var sinkErr error
+
+func benchSetup(b *testing.B, sys *model.System) (*Program, *Eval, []float64, []float64) {
+	prog := mustCompile(b, sys)
+	x, p := guess(sys)
+	return prog, prog.NewEval(), x, p
+}
+
+func residualBench(b *testing.B, sys *model.System) {
+	prog, e, x, p := benchSetup(b, sys)
+	f := make([]float64, prog.NumEquations())
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.Residual(f, x, p)
+	}
+}
+
+func jacobianBench(b *testing.B, sys *model.System) {
+	prog, e, x, p := benchSetup(b, sys)
+	jac := prog.NewJacobian()
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.Jacobian(jac, x, p)
+	}
+}
+
+func residualJacobianBench(b *testing.B, sys *model.System) {
+	prog, e, x, p := benchSetup(b, sys)
+	f := make([]float64, prog.NumEquations())
+	jac := prog.NewJacobian()
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.ResidualJacobian(f, jac, x, p)
+	}
+}
+
+func paramJacobianBench(b *testing.B, sys *model.System) {
+	prog, e, x, p := benchSetup(b, sys)
+	dst := mat.NewDense(prog.NumEquations(), len(sys.Inputs), nil)
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.ParamJacobian(dst, x, p, sys.Inputs)
+	}
+}
+
+func compileBench(b *testing.B, sys *model.System) {
+	b.ReportAllocs()
+	for b.Loop() {
+		_, sinkErr = Compile(sys)
+	}
+}
+
+func BenchmarkResidualColumn41(b *testing.B)         { residualBench(b, binaryColumn(41, 21)) }
+func BenchmarkJacobianColumn41(b *testing.B)         { jacobianBench(b, binaryColumn(41, 21)) }
+func BenchmarkResidualJacobianColumn41(b *testing.B) { residualJacobianBench(b, binaryColumn(41, 21)) }
+func BenchmarkParamJacobianColumn41(b *testing.B)    { paramJacobianBench(b, binaryColumn(41, 21)) }
+func BenchmarkCompileColumn41(b *testing.B)          { compileBench(b, binaryColumn(41, 21)) }
+
+func BenchmarkResidualColumn200x4(b *testing.B) { residualBench(b, multiColumn(200, 100)) }
+func BenchmarkJacobianColumn200x4(b *testing.B) { jacobianBench(b, multiColumn(200, 100)) }
+func BenchmarkResidualJacobianColumn200x4(b *testing.B) {
+	residualJacobianBench(b, multiColumn(200, 100))
+}
+func BenchmarkParamJacobianColumn200x4(b *testing.B) { paramJacobianBench(b, multiColumn(200, 100)) }
+func BenchmarkCompileColumn200x4(b *testing.B)       { compileBench(b, multiColumn(200, 100)) }
