@@ -61,7 +61,7 @@ func ExampleEval_Residual() {
 		return
 	}
 	e := prog.NewEval()
-	x := []float64{5000.0 / 3600, 0.104}                // f_out [kg/s], s_out
+	x := []float64{5000.0 / 3600, 0.104}                 // f_out [kg/s], s_out
 	p := []float64{0.65, 0, 800.0 / 3600, 4200.0 / 3600} // s_conc, s_water, f_conc, f_water
 	f := make([]float64, prog.NumEquations())
 	if err := e.Residual(f, x, p); err != nil {
