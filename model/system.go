@@ -49,6 +49,10 @@ type System struct {
 
 	Constants map[string]float64 // the constants as expanded (after overrides)
 	Warnings  []Warning          // things check reports without failing
+
+	Checks []Check // range checks to evaluate after solving, in file order
+
+	index map[string]slot // name -> slot, for Lookup; nil until needed
 }
 
 // Role says what a symbol is in the model.
@@ -244,3 +248,15 @@ func (n *Param) At() Pos  { return n.Pos }
 func (n *Neg) At() Pos    { return n.Pos }
 func (n *Binary) At() Pos { return n.Pos }
 func (n *Call) At() Pos   { return n.Pos }
+
+// Check is a named range check on a quantity, evaluated after solving: a
+// value outside [Min, Max] is worth a warning (a correlation used outside
+// its valid range, say). Min and Max are in SI, -Inf and +Inf when not given.
+type Check struct {
+	Name     string // "antoine_benzene", "tray_T[3]"
+	Expr     Node   // in SI
+	Min, Max float64
+	Unit     Unit // display unit
+	Note     string
+	Pos      Pos
+}

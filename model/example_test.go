@@ -1,0 +1,66 @@
+package model_test
+
+import (
+	"fmt"
+	"os"
+
+	"github.com/loopwright/loopwright/model"
+)
+
+func ExampleLoad() {
+	f, err := os.Open("../testdata/models/syrup.yaml")
+	if err != nil {
+		fmt.Println(err)
+		return
+	}
+	defer f.Close()
+	file, err := model.Load("syrup.yaml", f)
+	if err != nil {
+		model.PrintError(os.Stdout, err)
+		return
+	}
+	sys, err := file.Expand(nil)
+	if err != nil {
+		model.PrintError(os.Stdout, err)
+		return
+	}
+	fmt.Println(sys.Name, len(sys.Unknowns), "unknowns,", len(sys.Equations), "equations")
+	for _, i := range sys.Inputs {
+		p := sys.Params[i]
+		fmt.Printf("input %s = %g %s (%.6g kg/s)\n", p.Name, p.Unit.FromSI(p.Value), p.Unit.Text, p.Value)
+	}
+	for _, o := range sys.Outputs {
+		fmt.Println("output", o.Name)
+	}
+	// Output:
+	// syrup-dilution 2 unknowns, 2 equations
+	// input f_conc = 800 kg/h (0.222222 kg/s)
+	// input f_water = 4200 kg/h (1.16667 kg/s)
+	// output f_out
+	// output s_out
+}
+
+func ExampleFile_Expand() {
+	file, err := model.LoadFile("../testdata/models/column.yaml")
+	if err != nil {
+		model.PrintError(os.Stdout, err)
+		return
+	}
+	// Override a constant as from the command line: a 31-stage column
+	// fed on stage 16.
+	sys, err := file.Expand(&model.ExpandOptions{Constants: map[string]float64{"NT": 31, "NF": 16}})
+	if err != nil {
+		model.PrintError(os.Stdout, err)
+		return
+	}
+	fmt.Println(len(sys.Unknowns), "unknowns,", len(sys.Equations), "equations")
+	fmt.Println(sys.Equations[15].Name, "uses unknowns", sys.Incidence()[15])
+	for _, o := range sys.Outputs {
+		fmt.Println("output", o.Name)
+	}
+	// Output:
+	// 31 unknowns, 31 equations
+	// tray[16] uses unknowns [14 15 16]
+	// output top
+	// output bottom
+}
