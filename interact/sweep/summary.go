@@ -60,11 +60,11 @@ type Between struct {
 // points, with where they occur. Min and Max are NaN (null) when no point
 // has a finite value.
 type Range struct {
-	Name  string  `json:"name"`
-	Min   float64 `json:"min"`
-	Max   float64 `json:"max"`
-	MinAt *Where  `json:"min_at,omitempty"`
-	MaxAt *Where  `json:"max_at,omitempty"`
+	Name  string `json:"name"`
+	Min   Num    `json:"min"`
+	Max   Num    `json:"max"`
+	MinAt *Where `json:"min_at,omitempty"`
+	MaxAt *Where `json:"max_at,omitempty"`
 }
 
 // PairingSummary is one pairing of interest across the envelope.
@@ -220,19 +220,19 @@ func quoteBest(b string) string {
 }
 
 func rangeOf(name string, recs []*Record, where func(*Record) Where, f func(*Record) float64) Range {
-	rg := Range{Name: name, Min: math.NaN(), Max: math.NaN()}
+	rg := Range{Name: name, Min: Num(math.NaN()), Max: Num(math.NaN())}
 	for _, r := range recs {
 		v := f(r)
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			continue
 		}
-		if math.IsNaN(rg.Min) || v < rg.Min {
-			rg.Min = v
+		if rg.MinAt == nil || v < float64(rg.Min) {
+			rg.Min = Num(v)
 			w := where(r)
 			rg.MinAt = &w
 		}
-		if math.IsNaN(rg.Max) || v > rg.Max {
-			rg.Max = v
+		if rg.MaxAt == nil || v > float64(rg.Max) {
+			rg.Max = Num(v)
 			w := where(r)
 			rg.MaxAt = &w
 		}
@@ -270,3 +270,11 @@ func verdict(ps *PairingSummary, analysed int, singular bool) string {
 	}
 	return strings.Join(parts, "; ")
 }
+
+// Num is a number in a summary: NaN marshals as null and ±Inf as the
+// strings "+Inf" and "-Inf", which plain JSON cannot carry.
+type Num float64
+
+func (n Num) MarshalJSON() ([]byte, error) { return appendJSONNum(nil, float64(n)), nil }
+
+func (n *Num) UnmarshalJSON(b []byte) error { return (*jnum)(n).UnmarshalJSON(b) }
