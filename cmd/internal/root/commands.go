@@ -5,11 +5,16 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"github.com/loopwright/loopwright/cmd/internal/checkcmd"
 	"github.com/loopwright/loopwright/cmd/internal/cli"
 )
 
-// commands lists the subcommand constructors in help order.
-var commands = []func(*cli.Factory) *cobra.Command{}
+// subcommands returns the subcommands in help order.
+func subcommands(f *cli.Factory) []*cobra.Command {
+	return []*cobra.Command{
+		checkcmd.NewCmdCheck(f, nil),
+	}
+}
 
 // isCobraUsageError recognises cobra's own argument errors (wrong number of
 // arguments, unknown command), which deserve the usage text.

@@ -61,9 +61,7 @@ structurally singular system, no acceptable pairing, failed sweep points);
 			f.IO.NoColor = true
 		}
 	}
-	for _, add := range commands {
-		cmd.AddCommand(add(f))
-	}
+	cmd.AddCommand(subcommands(f)...)
 	cmd.SetFlagErrorFunc(func(c *cobra.Command, err error) error {
 		return &cli.FlagError{Err: err}
 	})
