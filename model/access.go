@@ -168,9 +168,11 @@ func (s *System) SetValue(name, text string) error {
 		}
 		return fmt.Errorf("%s", msg)
 	}
-	sym := &s.Params[i]
+	var sym *Symbol
 	if role == RoleUnknown {
 		sym = &s.Unknowns[i]
+	} else {
+		sym = &s.Params[i]
 	}
 	v, u, hasUnit, err := units.ParseQuantity(text)
 	if err != nil {

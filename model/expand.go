@@ -610,7 +610,7 @@ func (e *expander) toSI(v *valueSpec, u units.Unit, diff bool, what, key string)
 		x = u.ToSI(v.num)
 	default:
 		if v.unit.Dim != u.Dim {
-			e.errorf(v.pos, "%s: %s is given in %s (%s) but the declared unit is %s (%s)", what, key, v.unitTxt, v.unit.Dim.Describe(), unitText(u), u.Dim.Describe())
+			e.errorf(v.pos, "%s: %s is given in %s but the quantity is in %s", what, key, describeUnit(*v.unit), describeUnit(u))
 			return 0, false
 		}
 		if diff {
@@ -626,11 +626,22 @@ func (e *expander) toSI(v *valueSpec, u units.Unit, diff bool, what, key string)
 	return x, true
 }
 
-func unitText(u units.Unit) string {
-	if u.Text == "" {
-		return "no unit"
+// describeUnit names a unit with its dimension: "kmol/h (mol/s, molar flow)".
+func describeUnit(u units.Unit) string {
+	if u.Dim.IsDimensionless() {
+		if u.Text == "" {
+			return "no unit (dimensionless)"
+		}
+		return u.Text + " (dimensionless)"
 	}
-	return u.Text
+	d := u.Dim.Describe()
+	if u.Text == "" || u.Text == d {
+		return d
+	}
+	if u.Text == u.Dim.String() {
+		return d
+	}
+	return u.Text + " (" + d + ")"
 }
 
 func modelUnit(u units.Unit, declared bool) Unit {
@@ -674,7 +685,12 @@ func memberName(base string, idx []int) string {
 	return b.String()
 }
 
-func fmtNum(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+func fmtNum(v float64) string {
+	if v == math.Trunc(v) && math.Abs(v) < 1e21 {
+		return strconv.FormatFloat(v, 'f', -1, 64)
+	}
+	return strconv.FormatFloat(v, 'g', -1, 64)
+}
 
 func dimText(d units.Dim) string {
 	if d.IsDimensionless() {

@@ -231,6 +231,12 @@ func (l *loader) load(data []byte) {
 		if m := yamlLine.FindStringSubmatch(msg); m != nil {
 			line, _ = strconv.Atoi(m[1])
 			msg = m[2]
+			if yamlParserError(msg) {
+				// yaml.v3 reports a parser error (not a scanner error)
+				// at the 0-based line of the construct it was reading.
+				line++
+				msg += " (in the construct that starts on this line)"
+			}
 		} else {
 			msg = strings.TrimPrefix(msg, "yaml: ")
 		}
@@ -249,6 +255,14 @@ func (l *loader) load(data []byte) {
 		return
 	}
 	seen := map[string]*yaml.Node{}
+	for i := 0; i+1 < len(root.Content); i += 2 {
+		// A misspelt required key is reported as unknown, not also as missing.
+		if k := root.Content[i]; k.Kind == yaml.ScalarNode && !contains(topKeys, k.Value) {
+			if s := nearest(k.Value, topKeys); s != "" {
+				seen[s] = k
+			}
+		}
+	}
 	l.mapping(root, topKeys, func(key string, k, v *yaml.Node) {
 		seen[key] = k
 		switch key {
@@ -292,6 +306,19 @@ func (l *loader) load(data []byte) {
 		// the constants; those with conditions are checked at expansion.
 		l.errs = append(l.errs, l.f.checkNames(func(w *fx) bool { return w == nil })...)
 	}
+}
+
+// yamlParserError says whether a yaml.v3 message comes from its parser,
+// whose line numbers count from 0, rather than its scanner.
+func yamlParserError(msg string) bool {
+	for _, p := range []string{"did not find expected <", "did not find expected key", "did not find expected ',' or",
+		"did not find expected node content", "did not find expected '-' indicator", "found undefined tag handle",
+		"found duplicate %YAML directive", "found incompatible YAML document", "found duplicate %TAG directive"} {
+		if strings.HasPrefix(msg, p) {
+			return true
+		}
+	}
+	return false
 }
 
 const maxYAMLDepth = 64
@@ -459,6 +486,9 @@ func (l *loader) loops(v *yaml.Node) (*loopsSpec, bool) {
 	}
 	ls, err := formula.ParseFor(s)
 	if err != nil {
+		if fe, ok := err.(*formula.Error); ok && !strings.Contains(fe.Msg, " in ") {
+			fe.Msg += `; a for clause reads "i in SET" or "i in LO..HI", several separated by ","`
+		}
 		l.formulaErr(m, err)
 		return nil, false
 	}

@@ -202,14 +202,14 @@ func callValue(fn Func, a []float64) float64 {
 // notConstant explains why a name cannot be used where a constant is needed.
 func (e *expander) notConstant(name string) string {
 	if fam, ok := e.fams[name]; ok {
-		return fmt.Sprintf("%q is a %s, but only constants and loop indices may appear here (a condition, a range, an index or a when)", name, fam.role)
+		return fmt.Sprintf("%q is %s, but only constants and loop indices may appear here (a condition, a range, an index or a when)", name, article(fam.role.String()))
 	}
 	if _, ok := e.defs[name]; ok {
 		return fmt.Sprintf("%q is a define, but only constants and loop indices may appear here (a condition, a range, an index or a when)", name)
 	}
 	for _, d := range e.f.symbols {
 		if d.name == name {
-			return fmt.Sprintf("%q is a %s, but only constants and loop indices may appear here", name, d.kind)
+			return fmt.Sprintf("%q is %s, but only constants and loop indices may appear here", name, article(d.kind.String()))
 		}
 	}
 	names := sortedKeys(e.consts)
@@ -442,11 +442,11 @@ func (e *expander) index(x *formula.Index, c *ctx) (val, bool) {
 		}
 		r := ranges[i]
 		if v != math.Trunc(v) {
-			e.errorf(c.at(a.Offset()), "%s: index %s of %q is not a whole number", c.what, fmtNum(v), x.Name)
+			e.errorf(pos, "%s: index %s of %q is not a whole number", c.what, fmtNum(v), x.Name)
 			return val{}, false
 		}
 		if v < float64(r.lo) || v > float64(r.hi) {
-			e.errorf(c.at(a.Offset()), "%s: index %s of %q is out of range: %s", c.what, fmtNum(v), x.Name, r)
+			e.errorf(pos, "%s: index %s of %q is out of range: %s", c.what, fmtNum(v), x.Name, r)
 			return val{}, false
 		}
 		idx[i] = int(v)
@@ -687,4 +687,11 @@ func (e *expander) call(x *formula.Call, c *ctx, depth int) (val, bool) {
 	}
 	out.n = &Call{Pos: pos, Fn: fn, Args: nodes}
 	return out, true
+}
+
+func article(s string) string {
+	if s != "" && strings.ContainsRune("aeiou", rune(s[0])) {
+		return "an " + s
+	}
+	return "a " + s
 }
