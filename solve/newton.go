@@ -1,0 +1,777 @@
+package solve
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"slices"
+	"sort"
+	"strings"
+
+	"github.com/loopwright/loopwright/solve/sparse"
+	"github.com/loopwright/loopwright/solve/structure"
+)
+
+// Problem is what to solve: N equations F(x) = 0 in N unknowns, with the
+// pattern of the Jacobian and functions that evaluate F and J.
+type Problem struct {
+	N              int   // unknowns = equations
+	RowPtr, ColIdx []int // Jacobian pattern, CSR (len RowPtr = N+1)
+
+	// Residual sets f = F(x). It returns an error when F cannot be
+	// evaluated at x (a log of a negative value, say); the solver then
+	// treats the point as out of reach.
+	Residual func(f, x []float64) error
+	// ResidualJacobian sets f = F(x) and jval to the Jacobian's values at
+	// x, in the order of the pattern.
+	ResidualJacobian func(f, jval, x []float64) error
+
+	// Lower and Upper bound the unknowns (±Inf where there is none; nil
+	// means no bounds). The solver never steps outside them.
+	Lower, Upper []float64
+	// Typical is the typical magnitude of each unknown, for the step test
+	// and the equation scales. nil or a non-positive entry: taken from the
+	// starting guess, else from the bounds, else 1.
+	Typical []float64
+
+	VarNames, EqNames []string // for messages; nil gives "unknown 3", "equation 3"
+}
+
+// Options says how hard to try. A nil *Options or a zero field means the
+// default given with the field.
+type Options struct {
+	// MaxIter is the limit on Newton iterations per run (each block, the
+	// whole system, each homotopy corrector). Zero means 50.
+	MaxIter int
+	// FTol is the convergence test on the scaled residual: max over
+	// equations of |F_i|/s_i, where s_i is the size of the terms of
+	// equation i at the guess (max_j |∂F_i/∂x_j|·typical_j). Zero means 1e-10.
+	FTol float64
+	// XTol is the test on the scaled step max_j |Δx_j|/typical_j: a step
+	// below XTol with a scaled residual below √FTol also counts as
+	// converged (the residual cannot drop further in floating point). Zero
+	// means 1e-13.
+	XTol float64
+	// NoHomotopy switches off the homotopy fallback.
+	NoHomotopy bool
+	// NoBlocks switches off the block-triangular decomposition: the whole
+	// system is solved at once from the start.
+	NoBlocks bool
+	// HomotopySteps limits the number of continuation steps. Zero means 200.
+	HomotopySteps int
+	// Recorder, when not nil, is called after every Newton iteration.
+	Recorder func(Iteration)
+}
+
+// Iteration is one Newton iteration, for a trace.
+type Iteration struct {
+	Method             string  // "newton", "newton+blocks" or "homotopy"
+	Block              int     // the block being solved, -1 for the whole system
+	T                  float64 // the homotopy parameter (1 outside the homotopy)
+	Iter               int     // iteration count within the run, from 1
+	ScaledResidualNorm float64 // after the step
+	StepNorm           float64 // scaled step max_j |Δx_j|/typical_j
+	Alpha              float64 // step length along the Newton direction
+}
+
+// Result is what came back.
+type Result struct {
+	X                  []float64 // the last point reached (the solution when Converged)
+	Status             Status
+	Iterations         int     // Newton iterations, all runs together
+	ResidualNorm       float64 // max_i |F_i(X)|, SI
+	ScaledResidualNorm float64 // max_i |F_i(X)|/s_i
+	StepNorm           float64 // the last scaled step
+	Method             string  // "newton", "newton+blocks" or "homotopy": what converged (or was tried last)
+	Blocks             int     // strongly connected blocks of the system
+}
+
+func (o *Options) resolve() Options {
+	var r Options
+	if o != nil {
+		r = *o
+	}
+	if r.MaxIter <= 0 {
+		r.MaxIter = 50
+	}
+	if r.FTol <= 0 {
+		r.FTol = 1e-10
+	}
+	if r.XTol <= 0 {
+		r.XTol = 1e-13
+	}
+	if r.HomotopySteps <= 0 {
+		r.HomotopySteps = 200
+	}
+	return r
+}
+
+// solver holds the work of one Newton call.
+type solver struct {
+	ctx  context.Context
+	prob *Problem
+	opt  Options
+	n    int
+
+	lo, hi, typ []float64
+	scale       []float64 // equation scales
+	f, jval     []float64 // at the current point
+	ftry, xtry  []float64
+	d, dc       []float64
+
+	hom bool      // subtract (1-t) F(x₀)
+	t   float64   // homotopy parameter
+	f0  []float64 // F(x₀)
+
+	iters    int
+	lastStep float64
+	method   string
+	colMap   []int
+}
+
+// outcome is how one run ended.
+type outcome struct {
+	status Status
+	reason string
+	bad    int // the unknown at fault, or -1
+	err    error
+}
+
+func (o outcome) ok() bool { return o.status == Converged }
+
+// part is a square subsystem: some rows, solved for some columns.
+type part struct {
+	block      int
+	rows, cols []int
+	a          sparse.CSR
+	src        []int // a.Val[k] = jval[src[k]]
+	lu         *sparse.LU
+}
+
+// Newton solves prob from x0 (which is not modified). On success the error
+// is nil and Result.Status is Converged; otherwise the error is a
+// *NotConverged (or the context's error when it was cancelled) and Result
+// holds the best point reached. An invalid Problem (wrong lengths) panics.
+func Newton(ctx context.Context, prob *Problem, x0 []float64, opts *Options) (*Result, error) {
+	n := prob.N
+	if len(x0) != n || len(prob.RowPtr) != n+1 || prob.Residual == nil || prob.ResidualJacobian == nil {
+		panic("solve: Newton: Problem and x0 do not fit (N, RowPtr, x0, Residual, ResidualJacobian)")
+	}
+	s := &solver{ctx: ctx, prob: prob, opt: opts.resolve(), n: n}
+	nnz := prob.RowPtr[n]
+	s.f, s.ftry, s.f0 = make([]float64, n), make([]float64, n), make([]float64, n)
+	s.jval = make([]float64, nnz)
+	s.xtry, s.d, s.dc = make([]float64, n), make([]float64, n), make([]float64, n)
+	s.colMap = filled(n, -1)
+	s.t = 1
+
+	x := slices.Clone(x0)
+	s.setBounds(x)
+	res := &Result{X: x}
+
+	// Structure first: a structurally singular system needs a different
+	// specification, not a better guess.
+	eqs := make([][]int, n)
+	for i := range eqs {
+		eqs[i] = prob.ColIdx[prob.RowPtr[i]:prob.RowPtr[i+1]]
+	}
+	st := structure.Analyze(eqs, n)
+	res.Blocks = len(st.Blocks)
+	if st.Singular() {
+		return s.structuralFailure(res, st)
+	}
+
+	// Equation scales at the guess.
+	if err := prob.ResidualJacobian(s.f0, s.jval, x); err != nil {
+		return s.fail(res, x, outcome{status: EvalFailed, bad: -1, err: err,
+			reason: "the residual cannot be evaluated at the starting guess: " + err.Error()}, "newton")
+	}
+	s.setScales()
+
+	full := s.newPart(-1, seq(n), seq(n))
+	var reasons []string
+	best := slices.Clone(x)
+	bestNorm := s.normOf(s.f0)
+	keep := func(y []float64) {
+		if err := prob.Residual(s.ftry, y); err == nil {
+			if nm := s.normOf(s.ftry); nm < bestNorm {
+				bestNorm = nm
+				copy(best, y)
+			}
+		}
+	}
+
+	// 1. Block by block, when there is more than one block.
+	if !s.opt.NoBlocks && len(st.Blocks) > 1 {
+		s.method = "newton+blocks"
+		y := slices.Clone(x)
+		var out outcome
+		for b, blk := range st.Blocks {
+			out = s.run(s.newPart(b, blk.Equations, blk.Unknowns), y, s.opt.FTol)
+			if !out.ok() {
+				out.reason = fmt.Sprintf("block %d of %d (%s): %s", b+1, len(st.Blocks), s.eqName(blk.Equations[0]), out.reason)
+				break
+			}
+		}
+		if out.ok() {
+			out = s.run(full, y, s.opt.FTol) // check, and polish if needed
+		}
+		if out.ok() {
+			return s.done(res, y)
+		}
+		if out.status == Canceled {
+			return s.canceled(res, y)
+		}
+		reasons = append(reasons, "block Newton: "+out.reason)
+		keep(y)
+	}
+
+	// 2. Newton on the whole system.
+	s.method = "newton"
+	y := slices.Clone(x)
+	out := s.run(full, y, s.opt.FTol)
+	if out.ok() {
+		return s.done(res, y)
+	}
+	if out.status == Canceled {
+		return s.canceled(res, y)
+	}
+	reasons = append(reasons, "Newton: "+out.reason)
+	keep(y)
+	last := out
+
+	// 3. Homotopy from the guess.
+	if !s.opt.NoHomotopy {
+		s.method = "homotopy"
+		y = slices.Clone(x)
+		out = s.homotopy(full, y)
+		if out.ok() {
+			return s.done(res, y)
+		}
+		if out.status == Canceled {
+			return s.canceled(res, y)
+		}
+		reasons = append(reasons, "homotopy: "+out.reason)
+		keep(y)
+		// Newton's own failure (a singular Jacobian at a named unknown, a
+		// bound) says more than the homotopy's; keep its status.
+		if last.status == IterationLimit || last.status == LineSearchFailed {
+			last.status = out.status
+		}
+		if last.bad < 0 {
+			last.bad = out.bad
+		}
+	}
+	last.reason = strings.Join(reasons, "; ")
+	return s.fail(res, best, last, s.method)
+}
+
+// setBounds fills lo, hi and typ and moves x strictly inside its bounds.
+func (s *solver) setBounds(x []float64) {
+	p := s.prob
+	s.lo, s.hi, s.typ = make([]float64, s.n), make([]float64, s.n), make([]float64, s.n)
+	for j := range s.n {
+		s.lo[j], s.hi[j] = math.Inf(-1), math.Inf(1)
+		if p.Lower != nil && !math.IsNaN(p.Lower[j]) {
+			s.lo[j] = p.Lower[j]
+		}
+		if p.Upper != nil && !math.IsNaN(p.Upper[j]) {
+			s.hi[j] = p.Upper[j]
+		}
+		typ := 0.0
+		if p.Typical != nil && p.Typical[j] > 0 && !math.IsInf(p.Typical[j], 0) {
+			typ = p.Typical[j]
+		}
+		if typ == 0 && x[j] != 0 && !math.IsInf(x[j], 0) && !math.IsNaN(x[j]) {
+			typ = math.Abs(x[j])
+		}
+		if typ == 0 {
+			for _, b := range []float64{s.lo[j], s.hi[j]} {
+				if !math.IsInf(b, 0) {
+					typ = max(typ, math.Abs(b))
+				}
+			}
+		}
+		if typ == 0 {
+			typ = 1
+		}
+		s.typ[j] = typ
+		// Project the guess strictly inside.
+		if math.IsNaN(x[j]) || math.IsInf(x[j], 0) {
+			x[j] = 0
+		}
+		margin := 1e-8 * typ
+		if w := s.hi[j] - s.lo[j]; w < math.Inf(1) {
+			margin = min(margin, 0.01*w)
+		}
+		if x[j] <= s.lo[j] {
+			x[j] = min(s.lo[j]+margin, s.lo[j]+0.5*(s.hi[j]-s.lo[j]))
+		}
+		if x[j] >= s.hi[j] {
+			x[j] = max(s.hi[j]-margin, s.lo[j]+0.5*(s.hi[j]-s.lo[j]))
+		}
+	}
+}
+
+// setScales sets each equation's scale from the Jacobian at the guess
+// (in s.jval): the largest |∂F_i/∂x_j|·typical_j, 1 when that is zero.
+func (s *solver) setScales() {
+	p := s.prob
+	s.scale = make([]float64, s.n)
+	for i := range s.n {
+		m := 0.0
+		for k := p.RowPtr[i]; k < p.RowPtr[i+1]; k++ {
+			m = max(m, math.Abs(s.jval[k])*s.typ[p.ColIdx[k]])
+		}
+		if m == 0 || math.IsInf(m, 0) || math.IsNaN(m) {
+			m = 1
+		}
+		s.scale[i] = m
+	}
+}
+
+func (s *solver) newPart(block int, rows, cols []int) *part {
+	pt := &part{block: block, rows: rows, cols: cols}
+	for l, c := range cols {
+		s.colMap[c] = l
+	}
+	pt.a = sparse.CSR{Rows: len(rows), Cols: len(cols), RowPtr: make([]int, 1, len(rows)+1)}
+	p := s.prob
+	for _, r := range rows {
+		for k := p.RowPtr[r]; k < p.RowPtr[r+1]; k++ {
+			if l := s.colMap[p.ColIdx[k]]; l >= 0 {
+				pt.a.ColIdx = append(pt.a.ColIdx, l)
+				pt.src = append(pt.src, k)
+			}
+		}
+		pt.a.RowPtr = append(pt.a.RowPtr, len(pt.a.ColIdx))
+	}
+	pt.a.Val = make([]float64, len(pt.src))
+	for _, c := range cols {
+		s.colMap[c] = -1
+	}
+	return pt
+}
+
+// residual evaluates F (minus (1-t)F(x₀) in the homotopy) into f.
+func (s *solver) residual(f, x []float64) error {
+	if err := s.prob.Residual(f, x); err != nil {
+		return err
+	}
+	s.shift(f)
+	return nil
+}
+
+func (s *solver) residualJacobian(f, x []float64) error {
+	if err := s.prob.ResidualJacobian(f, s.jval, x); err != nil {
+		return err
+	}
+	s.shift(f)
+	return nil
+}
+
+func (s *solver) shift(f []float64) {
+	if s.hom {
+		for i := range f {
+			f[i] -= (1 - s.t) * s.f0[i]
+		}
+	}
+}
+
+// measure returns the scaled max norm and the merit ½‖F_s‖² over the rows
+// of pt; a non-finite residual gives +Inf.
+func (s *solver) measure(pt *part, f []float64) (norm, phi float64) {
+	for _, r := range pt.rows {
+		v := f[r] / s.scale[r]
+		if math.IsNaN(v) {
+			return math.Inf(1), math.Inf(1)
+		}
+		norm = max(norm, math.Abs(v))
+		phi += 0.5 * v * v
+	}
+	return norm, phi
+}
+
+func (s *solver) normOf(f []float64) float64 {
+	m := 0.0
+	for i, v := range f {
+		v = math.Abs(v / s.scale[i])
+		if math.IsNaN(v) {
+			return math.Inf(1)
+		}
+		m = max(m, v)
+	}
+	return m
+}
+
+// run is damped Newton on one part, from x (updated in place).
+func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
+	small := 0
+	for it := 0; ; it++ {
+		if err := s.ctx.Err(); err != nil {
+			return outcome{status: Canceled, reason: err.Error(), bad: -1, err: err}
+		}
+		if err := s.residualJacobian(s.f, x); err != nil {
+			return outcome{status: EvalFailed, bad: -1, err: err, reason: "cannot evaluate the residual: " + err.Error()}
+		}
+		norm, phi := s.measure(pt, s.f)
+		if norm <= ftol || (small > 0 && norm <= math.Sqrt(ftol)) {
+			return outcome{status: Converged, bad: -1}
+		}
+		if math.IsInf(norm, 0) {
+			return outcome{status: EvalFailed, bad: -1, reason: "the residual is not finite"}
+		}
+		if small >= 3 {
+			return outcome{status: LineSearchFailed, bad: -1,
+				reason: fmt.Sprintf("steps too small to make progress (scaled residual %.3g)", norm)}
+		}
+		if it >= s.opt.MaxIter {
+			return outcome{status: IterationLimit, bad: -1,
+				reason: fmt.Sprintf("no convergence in %d iterations (scaled residual %.3g)", s.opt.MaxIter, norm)}
+		}
+
+		// Newton direction: J d = -F on the part.
+		for k, p := range pt.src {
+			pt.a.Val[k] = s.jval[p]
+		}
+		var err error
+		if pt.lu == nil {
+			pt.lu, err = sparse.Factorize(&pt.a, nil)
+		} else {
+			err = pt.lu.Refactor(&pt.a)
+		}
+		if err != nil {
+			pt.lu = nil
+			var se *sparse.SingularError
+			bad := -1
+			if errors.As(err, &se) {
+				bad = pt.cols[se.Col]
+			}
+			return outcome{status: SingularJacobian, bad: bad, err: err,
+				reason: "singular Jacobian at unknown " + s.varName(bad)}
+		}
+		d := s.d[:len(pt.cols)]
+		for l, r := range pt.rows {
+			d[l] = -s.f[r]
+		}
+		pt.lu.Solve(d, d)
+
+		// Bounds. First try the Newton step with each component cut to
+		// 0.995 of its distance to a bound: it lets a mole fraction fall
+		// towards zero by a factor 200 per step without holding back the
+		// others. If no step along that direction reduces the merit, fall
+		// back to the whole Newton step scaled to the fraction to the
+		// boundary, which is a descent direction.
+		dc := s.dc[:len(pt.cols)]
+		clipped := false
+		amax, blocking, up := 1.0, -1, false
+		for l, c := range pt.cols {
+			dc[l] = d[l]
+			if d[l] < 0 && s.lo[c] > math.Inf(-1) {
+				room := 0.995 * (x[c] - s.lo[c])
+				if -d[l] > room {
+					dc[l], clipped = -room, true
+				}
+				if lim := room / -d[l]; lim < amax {
+					amax, blocking, up = lim, c, false
+				}
+			} else if d[l] > 0 && s.hi[c] < math.Inf(1) {
+				room := 0.995 * (s.hi[c] - x[c])
+				if d[l] > room {
+					dc[l], clipped = room, true
+				}
+				if lim := room / d[l]; lim < amax {
+					amax, blocking, up = lim, c, true
+				}
+			}
+		}
+		alpha, ok := 0.0, false
+		if clipped {
+			alpha, ok = s.lineSearch(pt, x, dc, 1, phi)
+		}
+		if !ok && blocking >= 0 && amax < 1 {
+			// A step held back by a bound that the iterate already
+			// (nearly) sits on: the bound is what stops the solve.
+			b := s.lo[blocking]
+			if up {
+				b = s.hi[blocking]
+			}
+			if math.Abs(x[blocking]-b) <= 1e-6*s.typ[blocking] {
+				amax = 0
+			}
+		}
+		if !ok {
+			if !(amax > 1e-12) {
+				side, b := "lower", s.lo[blocking]
+				if up {
+					side, b = "upper", s.hi[blocking]
+				}
+				return outcome{status: HitBound, bad: blocking,
+					reason: fmt.Sprintf("hit bound: unknown %s sits on its %s bound %g and the Newton step points beyond it", s.varName(blocking), side, b)}
+			}
+			alpha, ok = s.lineSearch(pt, x, d, amax, phi)
+			dc = d
+		}
+		if !ok {
+			return outcome{status: LineSearchFailed, bad: -1,
+				reason: fmt.Sprintf("line search failed: no step along the Newton direction reduces the residual (scaled residual %.3g)", norm)}
+		}
+		d = dc
+		step := 0.0
+		for l, c := range pt.cols {
+			step = max(step, math.Abs(alpha*d[l])/s.typ[c])
+			x[c] = s.xtry[c]
+		}
+		s.iters++
+		s.lastStep = step
+		if step <= s.opt.XTol {
+			small++
+		} else {
+			small = 0
+		}
+		if s.opt.Recorder != nil {
+			nrm, _ := s.measure(pt, s.ftry)
+			s.opt.Recorder(Iteration{Method: s.method, Block: pt.block, T: s.t, Iter: it + 1,
+				ScaledResidualNorm: nrm, StepNorm: step, Alpha: alpha})
+		}
+	}
+}
+
+// lineSearch backtracks from alpha = amax along dir until the merit
+// ½‖F_s‖² meets the Armijo test φ(α) ≤ (1 - 2cα)φ(0), c = 1e-4 (for the
+// Newton direction, φ'(0) = -2φ(0)). Each cut takes the minimiser of the
+// quadratic through φ(0), φ'(0) and φ(α), kept within [0.1α, 0.5α]; a point
+// where the residual cannot be evaluated cuts by 4. On success s.xtry and
+// s.ftry hold the accepted point.
+func (s *solver) lineSearch(pt *part, x, dir []float64, amax, phi float64) (float64, bool) {
+	copy(s.xtry, x)
+	alpha := amax
+	for alpha >= 1e-10 {
+		for l, c := range pt.cols {
+			s.xtry[c] = x[c] + alpha*dir[l]
+		}
+		phiT := math.Inf(1)
+		if err := s.residual(s.ftry, s.xtry); err == nil {
+			_, phiT = s.measure(pt, s.ftry)
+		}
+		if phiT <= (1-2e-4*alpha)*phi {
+			return alpha, true
+		}
+		next := 0.25 * alpha
+		if !math.IsInf(phiT, 0) {
+			g := -2 * phi
+			if c := (phiT - phi - g*alpha) / (alpha * alpha); c > 0 {
+				next = -g / (2 * c)
+			}
+			next = min(max(next, 0.1*alpha), 0.5*alpha)
+		}
+		alpha = next
+	}
+	return 0, false
+}
+
+// homotopy follows H(x, t) = F(x) - (1-t)F(x₀) from t = 0, where x₀ solves
+// it, to t = 1, with a step in t that doubles after easy corrections and
+// halves after failed ones, then polishes the end point with Newton.
+func (s *solver) homotopy(full *part, x []float64) outcome {
+	defer func() { s.hom, s.t = false, 1 }()
+	s.hom = true
+	t, dt := 0.0, 0.1
+	save := make([]float64, len(x))
+	var out outcome
+	for step := 0; t < 1; step++ {
+		if step >= s.opt.HomotopySteps {
+			return outcome{status: HomotopyFailed, bad: -1,
+				reason: fmt.Sprintf("stopped at t = %.4g after %d continuation steps", t, step)}
+		}
+		s.t = min(1, t+dt)
+		copy(save, x)
+		before := s.iters
+		out = s.run(full, x, max(1e-6, s.opt.FTol))
+		switch {
+		case out.ok():
+			t = s.t
+			if s.iters-before <= 3 {
+				dt = min(2*dt, 0.5)
+			}
+		case out.status == Canceled:
+			return out
+		default:
+			copy(x, save)
+			dt /= 2
+			if dt < 1e-5 {
+				out.status = HomotopyFailed
+				out.reason = fmt.Sprintf("the path turns back or ends at t = %.4g (%s)", t, out.reason)
+				return out
+			}
+		}
+	}
+	s.hom, s.t = false, 1
+	return s.run(full, x, s.opt.FTol)
+}
+
+func (s *solver) done(res *Result, x []float64) (*Result, error) {
+	copy(res.X, x)
+	res.Status = Converged
+	res.Method = s.method
+	s.finish(res)
+	return res, nil
+}
+
+func (s *solver) canceled(res *Result, x []float64) (*Result, error) {
+	copy(res.X, x)
+	res.Status = Canceled
+	res.Method = s.method
+	s.finish(res)
+	return res, s.ctx.Err()
+}
+
+func (s *solver) finish(res *Result) {
+	res.Iterations = s.iters
+	res.StepNorm = s.lastStep
+	res.ResidualNorm, res.ScaledResidualNorm = math.NaN(), math.NaN()
+	if err := s.prob.Residual(s.ftry, res.X); err == nil {
+		m := 0.0
+		for _, v := range s.ftry {
+			m = max(m, math.Abs(v))
+		}
+		res.ResidualNorm = m
+		if s.scale != nil {
+			res.ScaledResidualNorm = s.normOf(s.ftry)
+		}
+	}
+}
+
+// fail builds the NotConverged error at x, the best point reached.
+func (s *solver) fail(res *Result, x []float64, out outcome, method string) (*Result, error) {
+	copy(res.X, x)
+	res.Status = out.status
+	res.Method = method
+	if s.scale == nil {
+		s.scale = make([]float64, s.n)
+		for i := range s.scale {
+			s.scale[i] = 1
+		}
+	}
+	s.finish(res)
+	nc := &NotConverged{Status: out.status, Iterations: s.iters, Norm: res.ScaledResidualNorm,
+		Reason: out.reason, Err: out.err}
+	// The worst equations, and the unknowns that weigh most in them.
+	var worstRows []int
+	haveJ := s.prob.ResidualJacobian(s.f, s.jval, x) == nil
+	if haveJ {
+		order := seq(s.n)
+		sc := func(i int) float64 { return math.Abs(s.f[i] / s.scale[i]) }
+		sort.SliceStable(order, func(a, b int) bool { return sc(order[a]) > sc(order[b]) })
+		for _, i := range order[:min(3, len(order))] {
+			if sc(i) == 0 {
+				break
+			}
+			worstRows = append(worstRows, i)
+			nc.Worst = append(nc.Worst, Worst{Equation: s.eqName(i), Residual: s.f[i], Scaled: s.f[i] / s.scale[i]})
+		}
+	}
+	seen := map[int]bool{}
+	if out.bad >= 0 {
+		seen[out.bad] = true
+		nc.WorstUnknowns = append(nc.WorstUnknowns, s.varName(out.bad))
+	}
+	if haveJ && len(nc.Worst) > 0 {
+		p := s.prob
+		for _, i := range worstRows[:min(2, len(worstRows))] {
+			type cand struct {
+				j int
+				w float64
+			}
+			var cs []cand
+			for k := p.RowPtr[i]; k < p.RowPtr[i+1]; k++ {
+				cs = append(cs, cand{p.ColIdx[k], math.Abs(s.jval[k]) * s.typ[p.ColIdx[k]]})
+			}
+			sort.SliceStable(cs, func(a, b int) bool { return cs[a].w > cs[b].w })
+			for _, c := range cs[:min(2, len(cs))] {
+				if !seen[c.j] {
+					seen[c.j] = true
+					nc.WorstUnknowns = append(nc.WorstUnknowns, s.varName(c.j))
+				}
+			}
+		}
+	}
+	switch out.status {
+	case SingularJacobian:
+		nc.Hint = "Check that the specifications fix the unknowns named (a flow or a composition may have gone to zero), and their starting guesses"
+	case HitBound:
+		nc.Hint = "The solution may lie beyond that bound: check the unknown's min and max, and the specifications"
+	case EvalFailed:
+		nc.Hint = "A formula cannot be evaluated where the solver went: give guesses or bounds that keep its argument in its domain"
+	default:
+		nc.Hint = "Check the starting guesses of the unknowns named, their bounds, and that the specifications can be met together"
+	}
+	return res, nc
+}
+
+func (s *solver) structuralFailure(res *Result, st *structure.Structure) (*Result, error) {
+	var eqs, vars []string
+	for _, e := range st.OverEquations {
+		eqs = append(eqs, s.eqName(e))
+	}
+	for _, u := range st.UnderUnknowns {
+		vars = append(vars, s.varName(u))
+	}
+	reason := "the equations cannot fix the unknowns whatever their values (structurally singular)"
+	var hint []string
+	if len(eqs) > 0 {
+		hint = append(hint, fmt.Sprintf("equations %s over-determine unknowns %s: remove a specification among them",
+			strings.Join(eqs, ", "), strings.Join(names(st.OverUnknowns, s.varName), ", ")))
+	}
+	if len(vars) > 0 {
+		hint = append(hint, fmt.Sprintf("unknowns %s are not fixed by equations %s: add an equation or a specification for them",
+			strings.Join(vars, ", "), strings.Join(names(st.UnderEquations, s.eqName), ", ")))
+	}
+	res.Status = StructurallySingular
+	res.Method = "structure"
+	res.ResidualNorm, res.ScaledResidualNorm = math.NaN(), math.NaN()
+	return res, &NotConverged{Status: StructurallySingular, Norm: math.NaN(), Reason: reason,
+		WorstUnknowns: vars, Hint: strings.Join(hint, "; ")}
+}
+
+func names(idx []int, name func(int) string) []string {
+	out := make([]string, len(idx))
+	for i, k := range idx {
+		out[i] = name(k)
+	}
+	return out
+}
+
+func (s *solver) varName(j int) string {
+	if j < 0 {
+		return "(unknown)"
+	}
+	if j < len(s.prob.VarNames) {
+		return s.prob.VarNames[j]
+	}
+	return fmt.Sprintf("unknown %d", j)
+}
+
+func (s *solver) eqName(i int) string {
+	if i < len(s.prob.EqNames) {
+		return s.prob.EqNames[i]
+	}
+	return fmt.Sprintf("equation %d", i)
+}
+
+func seq(n int) []int {
+	s := make([]int, n)
+	for i := range s {
+		s[i] = i
+	}
+	return s
+}
+
+func filled(n, v int) []int {
+	s := make([]int, n)
+	for i := range s {
+		s[i] = v
+	}
+	return s
+}
