@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 
 	"github.com/loopwright/loopwright/model"
@@ -34,35 +35,32 @@ func Compile(sys *model.System) (*Program, error) {
 	prog.xNames, prog.xTyp = names(sys.Unknowns)
 	prog.pNames, prog.pTyp = names(sys.Params)
 
-	var errs []error
-	compileAll := func(kind string, name func(int) string, expr func(int) model.Node, pos func(int) model.Pos, n int) []*tape {
-		tapes := make([]*tape, 0, n)
-		for i := 0; i < n; i++ {
-			t, err := prog.compile(kind, name(i), pos(i), expr(i))
-			if err != nil {
-				errs = append(errs, err)
-				continue
-			}
-			tapes = append(tapes, t)
-			prog.maxOps = max(prog.maxOps, len(t.ops))
-		}
-		return tapes
+	c := &compiler{
+		prog:   prog,
+		memo:   map[model.Node]ref{},
+		vars:   map[int]int32{},
+		params: map[int]int32{},
+		consts: map[uint64]int32{},
 	}
-	prog.eqs = compileAll("equation",
-		func(i int) string { return sys.Equations[i].Name },
-		func(i int) model.Node { return sys.Equations[i].Residual },
-		func(i int) model.Pos { return sys.Equations[i].Pos },
-		len(sys.Equations))
-	prog.outs = compileAll("output",
-		func(i int) string { return sys.Outputs[i].Name },
-		func(i int) model.Node { return sys.Outputs[i].Expr },
-		func(i int) model.Pos { return sys.Outputs[i].Pos },
-		len(sys.Outputs))
-	prog.defs = compileAll("define",
-		func(i int) string { return sys.Defines[i].Name },
-		func(i int) model.Node { return sys.Defines[i].Expr },
-		func(i int) model.Pos { return sys.Defines[i].Pos },
-		len(sys.Defines))
+	var errs []error
+	add := func(tapes []*tape, kind, name string, pos model.Pos, n model.Node) []*tape {
+		t, err := c.compile(kind, name, pos, n)
+		if err != nil {
+			errs = append(errs, err)
+			return tapes
+		}
+		prog.maxOps = max(prog.maxOps, len(t.ops))
+		return append(tapes, t)
+	}
+	for _, eq := range sys.Equations {
+		prog.eqs = add(prog.eqs, "equation", eq.Name, eq.Pos, eq.Residual)
+	}
+	for _, o := range sys.Outputs {
+		prog.outs = add(prog.outs, "output", o.Name, o.Pos, o.Expr)
+	}
+	for _, d := range sys.Defines {
+		prog.defs = add(prog.defs, "define", d.Name, d.Pos, d.Expr)
+	}
 	if len(errs) > 0 {
 		return nil, errors.Join(errs...)
 	}
@@ -139,31 +137,40 @@ type ref struct {
 
 type compiler struct {
 	prog   *Program
-	t      *tape
+	t      *tape // the tape being built, reused as scratch between tapes
 	memo   map[model.Node]ref
 	vars   map[int]int32
 	params map[int]int32
 	consts map[uint64]int32
 }
 
-func (p *Program) compile(kind, name string, pos model.Pos, n model.Node) (*tape, error) {
-	t := &tape{name: name, kind: kind, pos: pos}
+// compile compiles one formula into a tape, reusing the compiler's maps.
+func (c *compiler) compile(kind, name string, pos model.Pos, n model.Node) (*tape, error) {
 	if n == nil {
 		return nil, fmt.Errorf("%s: jacobian: %s %q has no formula", pos, kind, name)
 	}
-	c := &compiler{
-		prog:   p,
-		t:      t,
-		memo:   map[model.Node]ref{},
-		vars:   map[int]int32{},
-		params: map[int]int32{},
-		consts: map[uint64]int32{},
+	if c.t == nil {
+		c.t = &tape{}
 	}
+	c.t.name, c.t.kind = name, kind
+	c.t.ops, c.t.at, c.t.what = c.t.ops[:0], c.t.at[:0], c.t.what[:0]
+	clear(c.memo)
+	clear(c.vars)
+	clear(c.params)
+	clear(c.consts)
 	r, err := c.node(n)
 	if err != nil {
 		return nil, err
 	}
-	t.root = c.slot(r, n.At())
+	root := c.slot(r, n.At())
+	t := &tape{
+		name: name,
+		kind: kind,
+		ops:  slices.Clone(c.t.ops),
+		at:   slices.Clone(c.t.at),
+		what: slices.Clone(c.t.what),
+		root: root,
+	}
 	for idx, slot := range c.vars {
 		t.vars = append(t.vars, varRef{slot: slot, index: int32(idx)})
 	}

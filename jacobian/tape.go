@@ -57,7 +57,6 @@ type varRef struct {
 type tape struct {
 	name string
 	kind string // "equation", "output", "define"
-	pos  model.Pos
 
 	ops  []op
 	at   []model.Pos // position of each op's formula
