@@ -7,12 +7,14 @@ import (
 
 	"github.com/loopwright/loopwright/cmd/internal/checkcmd"
 	"github.com/loopwright/loopwright/cmd/internal/cli"
+	"github.com/loopwright/loopwright/cmd/internal/librarycmd"
 )
 
 // subcommands returns the subcommands in help order.
 func subcommands(f *cli.Factory) []*cobra.Command {
 	return []*cobra.Command{
 		checkcmd.NewCmdCheck(f, nil),
+		librarycmd.NewCmdLibrary(f, nil),
 	}
 }
 
