@@ -77,12 +77,18 @@ func checkSubsystem(k mat.Matrix, p Pairing, s []int) SubsystemCheck {
 		prod *= k.At(i, p[i])
 	}
 	res := SubsystemCheck{Auto: append([]int(nil), s...), Lambdas: make([]float64, m)}
-	var inv mat.Dense
 	var lu mat.LU
 	lu.Factorize(sub)
-	det := lu.Det()
-	cond := inverse(&inv, sub)
-	if math.IsInf(cond, 1) || cond > ConditionLimit {
+	det, cond := lu.Det(), lu.Cond()
+	var inv mat.Dense
+	if cond <= ConditionLimit {
+		id := mat.NewDiagDense(m, nil)
+		for a := 0; a < m; a++ {
+			id.SetDiag(a, 1)
+		}
+		_ = lu.SolveTo(&inv, false, id) // cond is checked above
+	}
+	if !(cond <= ConditionLimit) {
 		res.NI = 0
 		for a := range res.Lambdas {
 			res.Lambdas[a] = math.NaN()

@@ -92,7 +92,11 @@ func MinConditionNumber(k mat.Matrix) (gamma float64, dl, dr []float64, err erro
 				m.Set(i, j, ea*kd.At(i, j)*eb)
 			}
 		}
-		if !svd.Factorize(m, mat.SVDThin) {
+		kind := mat.SVDNone
+		if wantGrad {
+			kind = mat.SVDThin
+		}
+		if !svd.Factorize(m, kind) {
 			return math.Inf(1)
 		}
 		s := svd.Values(nil)
@@ -112,9 +116,16 @@ func MinConditionNumber(k mat.Matrix) (gamma float64, dl, dr []float64, err erro
 	fg := func(x, grad []float64) float64 { return eval(x, true, grad) }
 	f := func(x []float64) float64 { return eval(x, false, nil) }
 	best, bestF := bfgs(fg, x0, 500)
-	best, bestF = nelderMead(f, best, 0.1, 2000*len(x0))
-	if x, fx := bfgs(fg, best, 200); fx < bestF {
-		best, bestF = x, fx
+	// A small gradient means BFGS reached a smooth minimum. Otherwise the
+	// minimum sits on a kink (coinciding singular values): polish with the
+	// derivative-free simplex, then let BFGS finish from there.
+	grad := make([]float64, len(x0))
+	eval(best, true, grad)
+	if norm(grad) > 1e-7 {
+		best, bestF = nelderMead(f, best, 0.05, 500*len(x0))
+		if x, fx := bfgs(fg, best, 200); fx < bestF {
+			best, bestF = x, fx
+		}
 	}
 
 	dl, dr = make([]float64, n), make([]float64, n)
