@@ -18,6 +18,7 @@ type Program struct {
 	eqs     []*tape
 	outs    []*tape
 	defs    []*tape
+	checks  []*tape
 	pattern *Sparse // structure of dF/dx, Val nil
 	maxOps  int     // longest tape, for the work buffers
 	xNames  []string
@@ -26,7 +27,7 @@ type Program struct {
 	pTyp    []float64
 }
 
-// Compile compiles the equations, outputs and defines of sys into tapes. It
+// Compile compiles the equations, outputs, defines and checks of sys into tapes. It
 // fails when a formula made only of constants has no finite value (the error
 // is an *EvalError at its position), or when the system refers to an unknown
 // or parameter that does not exist.
@@ -60,6 +61,9 @@ func Compile(sys *model.System) (*Program, error) {
 	}
 	for _, d := range sys.Defines {
 		prog.defs = add(prog.defs, "define", d.Name, d.Pos, d.Expr)
+	}
+	for _, k := range sys.Checks {
+		prog.checks = add(prog.checks, "check", k.Name, k.Pos, k.Expr)
 	}
 	if len(errs) > 0 {
 		return nil, errors.Join(errs...)
@@ -103,6 +107,9 @@ func (p *Program) NumOutputs() int { return len(p.outs) }
 
 // NumDefines returns the number of defines.
 func (p *Program) NumDefines() int { return len(p.defs) }
+
+// NumChecks returns the number of range checks.
+func (p *Program) NumChecks() int { return len(p.checks) }
 
 // Pattern returns a copy of the structure of dF/dx (Val nil), rows sorted by
 // column. An entry is present when the unknown appears in the equation after

@@ -10,8 +10,8 @@ import (
 // produced it.
 type EvalError struct {
 	Pos      model.Pos
-	Equation string // name of the equation, output or define
-	Kind     string // "equation", "output" or "define"
+	Equation string // name of the equation, output, define or check
+	Kind     string // "equation", "output", "define" or "check"
 	Op       string // "log", "sqrt", "/", "^", ...
 	Msg      string // "log of a non-positive value (-0.2)"
 }

@@ -85,6 +85,14 @@ func (e *Eval) Defines(dst, x, p []float64) error {
 	return e.values(dst, e.prog.defs, x, p)
 }
 
+// Checks sets dst[i] to the value of the quantity of range check i
+// (model.System.Checks), for comparing with its Min and Max after solving.
+func (e *Eval) Checks(dst, x, p []float64) error {
+	e.check(x, p)
+	checkLen("dst", len(dst), len(e.prog.checks))
+	return e.values(dst, e.prog.checks, x, p)
+}
+
 // Jacobian fills dst.Val with dF/dx at (x, p), in the order of Pattern. dst
 // must have the structure of Program.NewJacobian.
 func (e *Eval) Jacobian(dst *Sparse, x, p []float64) error {

@@ -230,6 +230,7 @@ func opSystem(c opCase) *model.System {
 		Equations: []model.Equation{{Name: c.name, Residual: c.expr(b)}},
 		Outputs:   []model.Output{{Name: c.name, Expr: c.expr(b)}},
 		Defines:   []model.Output{{Name: c.name, Expr: c.expr(b)}},
+		Checks:    []model.Check{{Name: c.name, Expr: c.expr(b)}},
 	}
 }
 
@@ -279,16 +280,15 @@ func TestOps(t *testing.T) {
 					}
 				}
 
-				// Outputs and defines are compiled the same way.
-				var out, def [1]float64
-				var res [1]float64
+				// Outputs, defines and checks are compiled the same way.
+				var out, def, chk, res [1]float64
 				dx := nanDense(1, 2)
-				if err := errors.Join(e.Outputs(out[:], x, p), e.Defines(def[:], x, p), e.Residual(res[:], x, p),
-					e.OutputGradients(dx, nil, x, p, nil)); err != nil {
+				if err := errors.Join(e.Outputs(out[:], x, p), e.Defines(def[:], x, p), e.Checks(chk[:], x, p),
+					e.Residual(res[:], x, p), e.OutputGradients(dx, nil, x, p, nil)); err != nil {
 					t.Fatal(err)
 				}
-				if out != res || def != res {
-					t.Errorf("output %v, define %v, residual %v", out, def, res)
+				if out != res || def != res || chk != res {
+					t.Errorf("output %v, define %v, check %v, residual %v", out, def, chk, res)
 				}
 				if dx.At(0, 0) != got[0] || dx.At(0, 1) != got[1] {
 					t.Errorf("output gradient %v, residual gradient %v", dx.RawRowView(0), got[:2])

@@ -38,6 +38,14 @@ func TestModelFiles(t *testing.T) {
 			prog := mustCompile(t, sys)
 			x, p := guess(sys)
 			t.Run("guess", func(t *testing.T) { checkAgainstFD(t, prog, x, p, 1e-6) })
+			e := prog.NewEval()
+			defs, checks := nanSlice(prog.NumDefines()), nanSlice(prog.NumChecks())
+			if err := e.Defines(defs, x, p); err != nil {
+				t.Errorf("defines at the guess: %v", err)
+			}
+			if err := e.Checks(checks, x, p); err != nil {
+				t.Errorf("checks at the guess: %v", err)
+			}
 
 			// Move every unknown by up to 2 % of its magnitude (or of its
 			// range), staying inside its bounds.

@@ -53,10 +53,11 @@ type varRef struct {
 	index int32 // index into x (or p)
 }
 
-// tape computes one scalar: an equation's residual, an output or a define.
+// tape computes one scalar: an equation's residual, an output, a define or
+// the quantity of a range check.
 type tape struct {
 	name string
-	kind string // "equation", "output", "define"
+	kind string // "equation", "output", "define", "check"
 
 	ops  []op
 	at   []model.Pos // position of each op's formula
