@@ -1,0 +1,88 @@
+package solve
+
+import (
+	"context"
+	"math"
+	"path/filepath"
+	"testing"
+
+	"github.com/loopwright/loopwright/jacobian"
+	"github.com/loopwright/loopwright/model"
+)
+
+func loadModel(t testing.TB, name string) (*model.System, *jacobian.Program) {
+	t.Helper()
+	f, err := model.LoadFile(filepath.Join("..", "testdata", "models", name))
+	if err != nil {
+		t.Fatal(err)
+	}
+	sys, err := f.Expand(nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	prog, err := jacobian.Compile(sys)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sys, prog
+}
+
+func unknown(t *testing.T, sys *model.System, x []float64, name string) float64 {
+	t.Helper()
+	for j, u := range sys.Unknowns {
+		if u.Name == name {
+			return x[j]
+		}
+	}
+	t.Fatalf("no unknown %q", name)
+	return 0
+}
+
+// TestOperatingColumnYAML solves testdata/models/column.yaml (column A with
+// L = 2.706, V = 3.206 kmol/min) from its guesses. Sources: COLA,
+// /work/shared/checkvalues.md §2a: yD = 0.99, xB = 0.01 for these flows;
+// the bench peer (/work/shared/bench/README.md, reference numbers) gives
+// 0.989996 and 0.010004 to 6 digits.
+func TestOperatingColumnYAML(t *testing.T) {
+	sys, prog := loadModel(t, "column.yaml")
+	res, err := Operating(context.Background(), prog, sys, nil, nil, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if top := unknown(t, sys, res.X, "x[41]"); math.Abs(top-0.989996) > 1e-6 {
+		t.Errorf("x[41] = %.7f, want 0.989996 (bench peer), 0.99 (COLA)", top)
+	}
+	if bot := unknown(t, sys, res.X, "x[1]"); math.Abs(bot-0.010004) > 1e-6 {
+		t.Errorf("x[1] = %.7f, want 0.010004 (bench peer), 0.01 (COLA)", bot)
+	}
+}
+
+// TestOperatingSyrupYAML: the syrup dilution (an invented example of
+// model-format.md): f_out = 800 + 4200 kg/h, s_out = 800·0.65/5000 = 0.104
+// (mass balances, exact; the bench peer's table agrees).
+func TestOperatingSyrupYAML(t *testing.T) {
+	sys, prog := loadModel(t, "syrup.yaml")
+	res, err := Operating(context.Background(), prog, sys, nil, nil, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f := unknown(t, sys, res.X, "f_out"); math.Abs(f-5000.0/3600) > 1e-12 {
+		t.Errorf("f_out = %v kg/s, want %v", f, 5000.0/3600)
+	}
+	if s := unknown(t, sys, res.X, "s_out"); math.Abs(s-0.104) > 1e-12 {
+		t.Errorf("s_out = %v, want 0.104", s)
+	}
+	if res.Blocks != 2 || res.Method != "newton+blocks" {
+		t.Errorf("blocks %d method %q, want 2 blocks solved in order", res.Blocks, res.Method)
+	}
+}
+
+func BenchmarkOperatingColumnYAML(b *testing.B) {
+	sys, prog := loadModel(b, "column.yaml")
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := Operating(context.Background(), prog, sys, nil, nil, nil); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
