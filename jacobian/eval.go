@@ -120,31 +120,25 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		}
 		row := dst.Val[pat.RowPtr[i]:pat.RowPtr[i+1]]
 		for k, vr := range t.vars {
-			row[k] = e.adj[vr.slot]
+			d := e.adj[vr.slot]
+			if !finite(d) {
+				return t.derivFault(e.vals, e.prog.xNames[vr.index])
+			}
+			row[k] = d
 		}
 	}
 	return nil
 }
 
 // gradient runs the forward and reverse sweeps of t, leaving the adjoint of
-// every slot in e.adj, and checks that the value and the derivatives with
-// respect to every loaded symbol are finite.
+// every slot in e.adj. The value must be finite; the derivatives are checked
+// by the caller, for the symbols it asked for.
 func (e *Eval) gradient(t *tape, x, p []float64) (float64, error) {
 	r, err := e.value(t, x, p)
 	if err != nil {
 		return r, err
 	}
 	t.reverse(e.adj, e.vals)
-	for _, vr := range t.vars {
-		if !finite(e.adj[vr.slot]) {
-			return r, t.derivFault(e.vals, e.prog.xNames[vr.index])
-		}
-	}
-	for _, vr := range t.params {
-		if !finite(e.adj[vr.slot]) {
-			return r, t.derivFault(e.vals, e.prog.pNames[vr.index])
-		}
-	}
 	return r, nil
 }
 
@@ -186,18 +180,30 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, x, p []float64, cols [
 			row := dx.RawRowView(i)
 			clear(row)
 			for _, vr := range t.vars {
-				row[vr.index] = e.adj[vr.slot]
+				d := e.adj[vr.slot]
+				if !finite(d) {
+					return t.derivFault(e.vals, e.prog.xNames[vr.index])
+				}
+				row[vr.index] = d
 			}
 		}
 		if dp != nil {
 			for _, vr := range t.params {
 				e.padj[vr.index] = e.adj[vr.slot]
 			}
+			var bad int32 = -1
 			for k, c := range cols {
-				dp.Set(i, k, e.padj[c])
+				d := e.padj[c]
+				if !finite(d) && bad < 0 {
+					bad = int32(c)
+				}
+				dp.Set(i, k, d)
 			}
 			for _, vr := range t.params {
 				e.padj[vr.index] = 0
+			}
+			if bad >= 0 {
+				return t.derivFault(e.vals, e.prog.pNames[bad])
 			}
 		}
 	}

@@ -648,6 +648,35 @@ func TestEvalErrors(t *testing.T) {
 	}
 }
 
+// TestDerivativeErrorsOnlyWhenAsked: sqrt(p)*x at p = 0 has a finite dF/dx
+// but an infinite dF/dp; only ParamJacobian reports it.
+func TestDerivativeErrorsOnlyWhenAsked(t *testing.T) {
+	at := model.Pos{File: "m.yaml", Line: 2, Col: 5}
+	sys := &model.System{
+		Unknowns: unknowns("x"),
+		Params:   []model.Symbol{{Name: "p"}, {Name: "q"}},
+		Equations: []model.Equation{{Name: "e", Residual: &model.Binary{Op: model.OpMul,
+			L: &model.Call{Pos: at, Fn: model.FnSqrt, Args: []model.Node{&model.Param{Index: 0}}},
+			R: &model.Binary{Op: model.OpAdd, L: &model.Var{}, R: &model.Param{Index: 1}}}}},
+	}
+	prog := mustCompile(t, sys)
+	e := prog.NewEval()
+	x, p := []float64{2}, []float64{0, 1}
+	jac := prog.NewJacobian()
+	if err := e.Jacobian(jac, x, p); err != nil || jac.Val[0] != 0 {
+		t.Errorf("Jacobian: %v, %v; want no error, 0", jac.Val, err)
+	}
+	dq := mat.NewDense(1, 1, nil)
+	if err := e.ParamJacobian(dq, x, p, []int{1}); err != nil || dq.At(0, 0) != 0 {
+		t.Errorf("dF/dq: %v, %v; want no error, 0", dq.At(0, 0), err)
+	}
+	err := e.ParamJacobian(mat.NewDense(1, 2, nil), x, p, []int{1, 0})
+	want := `m.yaml:2:5: sqrt has an infinite derivative at 0 in equation "e"`
+	if err == nil || err.Error() != want {
+		t.Errorf("dF/dp: error %v, want %s", err, want)
+	}
+}
+
 func TestCompileErrors(t *testing.T) {
 	at := model.Pos{File: "m.yaml", Line: 4, Col: 9}
 	for _, tc := range []struct {
