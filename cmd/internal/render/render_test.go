@@ -54,3 +54,17 @@ func TestFloatJSON(t *testing.T) {
 		t.Errorf("got %q want %q", got, want)
 	}
 }
+
+func TestOrderedJSON(t *testing.T) {
+	var o Ordered[Float]
+	o.Set("x[2]", 2)
+	o.Set("x[10]", 10)
+	o.Set("x[2]", 3)
+	var b bytes.Buffer
+	if err := WriteJSON(&b, o); err != nil {
+		t.Fatal(err)
+	}
+	if got, want := b.String(), "{\n  \"x[2]\": 3,\n  \"x[10]\": 10\n}\n"; got != want {
+		t.Errorf("got %q want %q", got, want)
+	}
+}

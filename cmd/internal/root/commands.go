@@ -8,12 +8,14 @@ import (
 	"github.com/loopwright/loopwright/cmd/internal/checkcmd"
 	"github.com/loopwright/loopwright/cmd/internal/cli"
 	"github.com/loopwright/loopwright/cmd/internal/librarycmd"
+	"github.com/loopwright/loopwright/cmd/internal/solvecmd"
 )
 
 // subcommands returns the subcommands in help order.
 func subcommands(f *cli.Factory) []*cobra.Command {
 	return []*cobra.Command{
 		checkcmd.NewCmdCheck(f, nil),
+		solvecmd.NewCmdSolve(f, nil),
 		librarycmd.NewCmdLibrary(f, nil),
 	}
 }
