@@ -94,7 +94,7 @@ type Record struct {
 	RGA     []float64 // relative gain array, row-major
 	Det     float64   // det K (NaN when K is not square)
 	Cond    float64   // condition number of K (scaled as the analysis scales it)
-	Best    string    // the best pairing at this point, by name ("" when none passes)
+	Best    string    // the best-ranked pairing that is not rejected, by name ("" when all are)
 	NI      []float64 // Niederlinski index of each pairing of interest
 	Pass    []bool    // whether each pairing of interest passes every screen
 }

@@ -258,9 +258,11 @@ func verdict(ps *PairingSummary, analysed int, singular bool) string {
 	case ps.PassShare > 0:
 		parts = append(parts, fmt.Sprintf("fails over most of the envelope: passes every screen at only %s of analysed points", pct(ps.PassShare)))
 	default:
-		parts = append(parts, "fails everywhere: passes the screens at no analysed point")
+		parts = append(parts, "cautioned or rejected everywhere: passes every screen at no analysed point (see the reasons of the analysis at the nominal point)")
 	}
-	if ps.BestShare < 1 && ps.BestShare > 0 {
+	if ps.BestShare == 1 {
+		parts = append(parts, "best-ranked pairing at every point")
+	} else if ps.BestShare > 0 {
 		parts = append(parts, fmt.Sprintf("best pairing at %s of points", pct(ps.BestShare)))
 	} else if ps.BestShare == 0 {
 		parts = append(parts, "never the best pairing")

@@ -1,0 +1,400 @@
+package sweep
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+
+	"gonum.org/v1/gonum/mat"
+
+	"github.com/loopwright/loopwright/interact"
+	"github.com/loopwright/loopwright/jacobian"
+	"github.com/loopwright/loopwright/model"
+	"github.com/loopwright/loopwright/solve"
+	"github.com/loopwright/loopwright/solve/sparse"
+)
+
+// ModelOptions say how to sweep a model. The zero value sweeps the model's
+// envelope on a full grid with the default solver settings.
+type ModelOptions struct {
+	// Axes replaces the model's envelope when not empty.
+	Axes []Axis
+	// Design lays out the points; zero means a full grid.
+	Design Design
+	// Pairings are requested pairings of interest besides the nominal best
+	// (each Pairing[i] is the input of output i). For systems of up to 3
+	// loops every pairing is of interest anyway.
+	Pairings []interact.Pairing
+	// Solver settings for every point; nil means the defaults.
+	Solver *solve.Options
+	// Analysis settings for every point; nil means the defaults.
+	Analysis *interact.Options
+	// ModelID identifies the model text for the fingerprint beside its
+	// expanded equations (the file's bytes, say); may be empty.
+	ModelID string
+}
+
+// EnvelopeAxes converts the model's envelope into sweep axes.
+func EnvelopeAxes(sys *model.System) []Axis {
+	var out []Axis
+	for _, e := range sys.Envelope {
+		out = append(out, AxisFor(sys, e.Param, e.From, e.To, e.Points, e.Log))
+	}
+	return out
+}
+
+// AxisFor makes a sweep axis over parameter slot k of sys, From and To in SI.
+func AxisFor(sys *model.System, k int, from, to float64, points int, log bool) Axis {
+	s := sys.Params[k]
+	return Axis{Name: s.Name, Param: k, From: from, To: to, Points: points, Log: log,
+		Nominal: s.Value, Unit: s.Unit.Text, Scale: s.Unit.DiffScale(), Offset: s.Unit.Offset}
+}
+
+// FromModel prepares a sweep of a compiled model: it solves the nominal
+// point (from the model's guesses), analyses it to find the nominal-best
+// pairing, and returns the Problem with its header sealed.
+func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, opts *ModelOptions) (*Problem, error) {
+	if opts == nil {
+		opts = &ModelOptions{}
+	}
+	no, ni := len(sys.Outputs), len(sys.Inputs)
+	if no == 0 || ni == 0 {
+		return nil, fmt.Errorf("%s: a sweep analyses gains: the model needs outputs and inputs (it has %d and %d)", sys.File, no, ni)
+	}
+	if no != ni {
+		return nil, fmt.Errorf("%s: a sweep needs as many outputs as inputs (the model has %d outputs, %d inputs)", sys.File, no, ni)
+	}
+	axes := opts.Axes
+	if len(axes) == 0 {
+		axes = EnvelopeAxes(sys)
+	}
+	if len(axes) == 0 {
+		return nil, fmt.Errorf("%s: the model has no envelope: add one to the file or give --axis", sys.File)
+	}
+	plan, err := NewPlan(axes, opts.Design)
+	if err != nil {
+		return nil, err
+	}
+	m := &modelRun{sys: sys, prog: prog, opts: opts}
+	m.init()
+	nominal := make([]float64, len(sys.Params))
+	for k, s := range sys.Params {
+		nominal[k] = s.Value
+	}
+	guess := make([]float64, len(sys.Unknowns))
+	for j, s := range sys.Unknowns {
+		guess[j] = s.Value
+	}
+	w := m.newWorker()
+	w.p = nominal
+	res, err := solve.Newton(ctx, w.prob, guess, opts.Solver)
+	if err != nil {
+		return nil, fmt.Errorf("the nominal point does not solve, so there is nothing to continue from: %w", err)
+	}
+	start := res.X
+	a, _, err := w.analyse(start, nominal)
+	if err != nil {
+		return nil, fmt.Errorf("the nominal point: %w", err)
+	}
+
+	h := &Header{Format: FormatVersion, Model: sys.Name, Axes: axes, Design: opts.Design, Total: plan.Len(),
+		Outputs: m.outputs, Inputs: m.inputs, Caution: interact.Caution}
+	var interest []interact.Pairing
+	add := func(p interact.Pairing, role string) {
+		for _, q := range interest {
+			if slices.Equal(p, q) {
+				return
+			}
+		}
+		interest = append(interest, p)
+		h.Pairings = append(h.Pairings, Pairing{Label: "P" + strconv.Itoa(len(interest)),
+			Name: PairingName(m.outputs, m.inputs, p), Role: role, Input: append([]int(nil), p...)})
+	}
+	if best := bestOf(a); best != nil {
+		add(best.Pairs, "nominal best")
+	}
+	for _, p := range opts.Pairings {
+		if len(p) != no {
+			return nil, fmt.Errorf("pairing %v: needs one input for each of %d outputs", p, no)
+		}
+		add(p, "requested")
+	}
+	if no <= 3 {
+		for p := range interact.Pairings(no) {
+			add(slices.Clone(p), "alternative")
+		}
+	}
+	m.interest = interest
+	h.Seal(opts.ModelID + "\x00" + systemID(sys))
+	return &Problem{Header: h, Plan: plan, Nominal: nominal, Start: start,
+		NewWorker: func() Worker { return m.newWorker() }}, nil
+}
+
+// bestOf is the best-ranked pairing that is not rejected (it may carry
+// cautions), or nil when every pairing is rejected.
+func bestOf(a *interact.Analysis) *interact.PairingResult {
+	if len(a.Pairings) > 0 && a.Pairings[0].Verdict != interact.Rejected {
+		return &a.Pairings[0]
+	}
+	return nil
+}
+
+func passes(v interact.Verdict) bool { return v == interact.Recommended || v == interact.Acceptable }
+
+// modelRun is what the workers of one model sweep share (read only).
+type modelRun struct {
+	sys      *model.System
+	prog     *jacobian.Program
+	opts     *ModelOptions
+	outputs  []Quantity
+	inputs   []Quantity
+	signalsO []interact.Signal
+	signalsI []interact.Signal
+	outScale []float64 // SI per display unit (differences)
+	inScale  []float64
+	lower    []float64
+	upper    []float64
+	pattern  *jacobian.Sparse
+	interest []interact.Pairing
+	names    []string
+	eqNames  []string
+}
+
+func (m *modelRun) init() {
+	sys := m.sys
+	for _, o := range sys.Outputs {
+		m.outputs = append(m.outputs, Quantity{Name: o.Name, Unit: o.Unit.Text})
+		m.outScale = append(m.outScale, o.Unit.DiffScale())
+		m.signalsO = append(m.signalsO, interact.Signal{Name: o.Name, Unit: o.Unit.Text, Scale: o.Unit.DiffScale(), Span: o.Span / o.Unit.DiffScale()})
+	}
+	for _, k := range sys.Inputs {
+		s := sys.Params[k]
+		m.inputs = append(m.inputs, Quantity{Name: s.Name, Unit: s.Unit.Text})
+		m.inScale = append(m.inScale, s.Unit.DiffScale())
+		m.signalsI = append(m.signalsI, interact.Signal{Name: s.Name, Unit: s.Unit.Text, Scale: s.Unit.DiffScale(),
+			Span: s.Span / s.Unit.DiffScale(), Nominal: s.Unit.FromSI(s.Value)})
+	}
+	for _, u := range sys.Unknowns {
+		m.lower = append(m.lower, u.Min)
+		m.upper = append(m.upper, u.Max)
+		m.names = append(m.names, u.Name)
+	}
+	for _, e := range sys.Equations {
+		m.eqNames = append(m.eqNames, e.Name)
+	}
+	m.pattern = m.prog.Pattern()
+}
+
+// modelWorker solves and analyses points for one goroutine.
+type modelWorker struct {
+	m    *modelRun
+	eval *jacobian.Eval
+	prob *solve.Problem
+	p    []float64 // the parameters of the point being solved
+
+	jac    *jacobian.Sparse
+	lu     *sparse.LU
+	fu     *mat.Dense // dF/du
+	dydx   *mat.Dense
+	dydu   *mat.Dense
+	rhs    []float64
+	z      []float64
+	y      []float64
+	kSI    *mat.Dense
+	gs     interact.GainSet
+	aopts  interact.Options
+	scaled []float64
+}
+
+func (m *modelRun) newWorker() *modelWorker {
+	n, no, ni := len(m.sys.Unknowns), len(m.sys.Outputs), len(m.sys.Inputs)
+	w := &modelWorker{m: m, eval: m.prog.NewEval(), jac: m.prog.NewJacobian(),
+		fu: mat.NewDense(len(m.sys.Equations), ni, nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil),
+		rhs: make([]float64, n), z: make([]float64, n), y: make([]float64, no), kSI: mat.NewDense(no, ni, nil)}
+	w.prob = &solve.Problem{
+		N: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx,
+		Residual: func(f, x []float64) error { return w.eval.Residual(f, x, w.p) },
+		ResidualJacobian: func(f, jval, x []float64) error {
+			j := jacobian.Sparse{Rows: n, Cols: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx, Val: jval}
+			return w.eval.ResidualJacobian(f, &j, x, w.p)
+		},
+		Lower: m.lower, Upper: m.upper, VarNames: m.names, EqNames: m.eqNames,
+	}
+	if m.opts.Analysis != nil {
+		w.aopts = *m.opts.Analysis
+	}
+	w.aopts.MaxPairings = -1
+	w.gs = interact.GainSet{Outputs: m.signalsO, Inputs: m.signalsI, Source: "model"}
+	return w
+}
+
+// Point implements Worker.
+func (w *modelWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) ([]float64, error) {
+	w.p = p
+	res, err := solve.Newton(ctx, w.prob, x0, w.m.opts.Solver)
+	if res != nil {
+		rec.Iterations = res.Iterations
+	}
+	if err != nil {
+		return nil, err
+	}
+	x := res.X
+	a, k, err := w.analyse(x, p)
+	if err != nil {
+		return x, err
+	}
+	no, ni := len(w.m.outputs), len(w.m.inputs)
+	if err := w.eval.Outputs(w.y, x, p); err != nil {
+		return x, err
+	}
+	rec.Outputs = make([]float64, no)
+	for i, o := range w.m.sys.Outputs {
+		rec.Outputs[i] = o.Unit.FromSI(w.y[i])
+	}
+	rec.K = make([]float64, no*ni)
+	rec.RGA = make([]float64, no*ni)
+	for i := 0; i < no; i++ {
+		for j := 0; j < ni; j++ {
+			rec.K[i*ni+j] = k.At(i, j)
+			rec.RGA[i*ni+j] = a.RGA.At(i, j)
+		}
+	}
+	rec.Det = a.Det
+	rec.Cond = math.NaN()
+	if a.SVD != nil {
+		rec.Cond = a.SVD.Cond
+	}
+	if b := bestOf(a); b != nil {
+		rec.Best = PairingName(w.m.outputs, w.m.inputs, b.Pairs)
+	}
+	rec.NI = make([]float64, len(w.m.interest))
+	rec.Pass = make([]bool, len(w.m.interest))
+	for q, pr := range w.m.interest {
+		rec.NI[q] = interact.Niederlinski(k, pr)
+		for _, r := range a.Pairings {
+			if slices.Equal(r.Pairs, pr) {
+				rec.Pass[q] = passes(r.Verdict)
+				break
+			}
+		}
+	}
+	return x, nil
+}
+
+// analyse computes the gain matrix at the solved state x by the implicit-
+// function theorem, K = dy/dx (-Fx⁻¹ Fu) + dy/du, in display units, and
+// the interaction analysis of it.
+func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, error) {
+	m := w.m
+	n, no, ni := len(m.sys.Unknowns), len(m.outputs), len(m.inputs)
+	if err := w.eval.Jacobian(w.jac, x, p); err != nil {
+		return nil, nil, err
+	}
+	csr := &sparse.CSR{Rows: n, Cols: n, RowPtr: w.jac.RowPtr, ColIdx: w.jac.ColIdx, Val: w.jac.Val}
+	var err error
+	if w.lu == nil {
+		w.lu, err = sparse.Factorize(csr, nil)
+	} else {
+		err = w.lu.Refactor(csr)
+		if err != nil {
+			w.lu = nil
+		}
+	}
+	if err != nil {
+		return nil, nil, fmt.Errorf("no gains: the Jacobian dF/dx is singular at this point (%v)", err)
+	}
+	if err := w.eval.ParamJacobian(w.fu, x, p, m.sys.Inputs); err != nil {
+		return nil, nil, err
+	}
+	if err := w.eval.OutputGradients(w.dydx, w.dydu, x, p, m.sys.Inputs); err != nil {
+		return nil, nil, err
+	}
+	k := mat.NewDense(no, ni, nil)
+	for j := 0; j < ni; j++ {
+		for r := 0; r < n; r++ {
+			w.rhs[r] = -w.fu.At(r, j)
+		}
+		w.lu.Solve(w.z, w.rhs)
+		for i := 0; i < no; i++ {
+			s := w.dydu.At(i, j)
+			row := w.dydx.RawRowView(i)
+			for c, v := range row {
+				s += v * w.z[c]
+			}
+			k.Set(i, j, s*m.inScale[j]/m.outScale[i])
+		}
+	}
+	gs := w.gs
+	gs.K = k
+	a, err := interact.Analyze(&gs, &w.aopts)
+	if err != nil {
+		return nil, k, err
+	}
+	return a, k, nil
+}
+
+// systemID is a digest of the expanded system: symbols, values and
+// equations. Two runs with equal digests solve the same equations.
+func systemID(sys *model.System) string {
+	h := sha256.New()
+	var b strings.Builder
+	sym := func(kind string, s model.Symbol) {
+		fmt.Fprintf(&b, "%s %s %d %v %v %v %v %s\n", kind, s.Name, s.Role, s.Value, s.Min, s.Max, s.Span, s.Unit.Text)
+	}
+	for _, s := range sys.Unknowns {
+		sym("x", s)
+	}
+	for _, s := range sys.Params {
+		sym("p", s)
+	}
+	fmt.Fprintf(&b, "in %v dist %v\n", sys.Inputs, sys.Disturbances)
+	for _, e := range sys.Equations {
+		b.WriteString("eq " + e.Name + " ")
+		writeNode(&b, e.Residual, map[model.Node]bool{})
+		b.WriteByte('\n')
+	}
+	for _, o := range sys.Outputs {
+		b.WriteString("out " + o.Name + " " + o.Unit.Text + " ")
+		writeNode(&b, o.Expr, map[model.Node]bool{})
+		b.WriteByte('\n')
+	}
+	h.Write([]byte(b.String()))
+	return hex.EncodeToString(h.Sum(nil))
+}
+
+func writeNode(b *strings.Builder, n model.Node, _ map[model.Node]bool) {
+	switch n := n.(type) {
+	case *model.Const:
+		b.WriteString(strconv.FormatFloat(n.Value, 'g', -1, 64))
+	case *model.Var:
+		fmt.Fprintf(b, "x%d", n.Index)
+	case *model.Param:
+		fmt.Fprintf(b, "p%d", n.Index)
+	case *model.Neg:
+		b.WriteString("(-")
+		writeNode(b, n.X, nil)
+		b.WriteByte(')')
+	case *model.Binary:
+		b.WriteByte('(')
+		writeNode(b, n.L, nil)
+		b.WriteByte(byte(n.Op))
+		writeNode(b, n.R, nil)
+		b.WriteByte(')')
+	case *model.Call:
+		b.WriteString(string(n.Fn) + "(")
+		for i, a := range n.Args {
+			if i > 0 {
+				b.WriteByte(',')
+			}
+			writeNode(b, a, nil)
+		}
+		b.WriteByte(')')
+	default:
+		panic(fmt.Sprintf("sweep: unknown node type %T", n))
+	}
+}
