@@ -54,8 +54,9 @@ type LU struct {
 var errPivot = errors.New("sparse: kept pivot failed the threshold")
 
 // Factorize analyses the pattern of the square matrix a and factors it. It
-// returns a *SingularError when a column has no acceptable pivot. a is not
-// modified or retained. A non-square or malformed matrix panics.
+// returns a *SingularError when a column has no acceptable pivot; the LU is
+// returned all the same, analysed and ready for Refactor with other values
+// (but not for solving). a is not modified or retained. A non-square or malformed matrix panics.
 func Factorize(a *CSR, opts *Options) (*LU, error) {
 	a.check()
 	if a.Rows != a.Cols {
@@ -89,7 +90,7 @@ func (f *LU) Refactor(a *CSR) error {
 	}
 	f.gather(a)
 	if f.p != nil {
-		if err := f.refactor(); err == nil {
+		if err := f.refactor(); err == nil && f.p != nil {
 			f.refactored++
 			return nil
 		}
@@ -160,6 +161,14 @@ const tiny = 64 * 0x1p-52
 // order; the solve fills x; the part in pivotal rows is U's column, the rest
 // holds the pivot candidates and, divided by the pivot, L's column.
 func (f *LU) factor() error {
+	err := f.eliminate()
+	if err != nil {
+		f.p = nil // no pivots to keep, nothing to solve with
+	}
+	return err
+}
+
+func (f *LU) eliminate() error {
 	f.fresh++
 	n := f.n
 	f.pinv = filled(n, -1)

@@ -349,3 +349,18 @@ func TestFillTridiagonal(t *testing.T) {
 		t.Errorf("tridiagonal 41: nnz(L) = %d, nnz(U) = %d; want at most 40 and 81", l, u)
 	}
 }
+
+// TestRefactorAfterSingular: a failed factorisation leaves no pivots to
+// keep; the next Refactor with good values factors afresh.
+func TestRefactorAfterSingular(t *testing.T) {
+	a := fromDense([][]float64{{1, 2}, {2, 4}}, nil)
+	f, err := Factorize(a, nil)
+	if err == nil {
+		t.Fatal("want a singular error")
+	}
+	a.Val[3] = 5
+	if err := f.Refactor(a); err != nil {
+		t.Fatal(err)
+	}
+	checkAgainst(t, "after singular", f, a, rand.New(rand.NewPCG(1, 1)))
+}

@@ -39,17 +39,24 @@ func order(a *CSR, how Ordering) (q, pref []int) {
 	// greedy start of the matching, and its searches, favour large entries:
 	// the matched entries become the preferred pivots.
 	rows := make([][]int, a.Rows)
+	flat := make([]int, a.RowPtr[a.Rows])
 	for i := range rows {
 		lo, hi := a.RowPtr[i], a.RowPtr[i+1]
-		idx := make([]int, hi-lo)
-		for k := range idx {
-			idx[k] = lo + k
+		row := flat[lo:hi:hi]
+		for k := range row {
+			row[k] = lo + k // positions first, columns after sorting
 		}
-		sort.SliceStable(idx, func(x, y int) bool { return math.Abs(a.Val[idx[x]]) > math.Abs(a.Val[idx[y]]) })
-		rows[i] = make([]int, len(idx))
-		for k, p := range idx {
-			rows[i][k] = a.ColIdx[p]
+		sort.Slice(row, func(x, y int) bool {
+			vx, vy := math.Abs(a.Val[row[x]]), math.Abs(a.Val[row[y]])
+			if vx != vy {
+				return vx > vy
+			}
+			return row[x] < row[y]
+		})
+		for k, p := range row {
+			row[k] = a.ColIdx[p]
 		}
+		rows[i] = row
 	}
 	match := structure.MaxMatching(rows, n)
 	pref = filled(n, -1)
