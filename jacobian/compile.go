@@ -344,7 +344,8 @@ func (c *compiler) pow(at model.Pos, what string, base, exp ref) (ref, error) {
 	return c.apply(opPowC, at, what, exp.c, base)
 }
 
-// apply emits an operation, or folds it when every operand is a constant.
+// apply emits an operation, folds it when every operand is a constant, or
+// drops it when it is an identity.
 func (c *compiler) apply(code opcode, at model.Pos, what string, k float64, args ...ref) (ref, error) {
 	folded := true
 	for _, a := range args {
@@ -352,6 +353,9 @@ func (c *compiler) apply(code opcode, at model.Pos, what string, k float64, args
 	}
 	if folded {
 		return c.fold(code, at, what, k, args)
+	}
+	if r, ok := identity(code, args); ok {
+		return r, nil
 	}
 	if code == opDiv && args[1].isConst && args[1].c == 0 {
 		return ref{}, c.errAt(at, what, "division by zero")
@@ -362,6 +366,42 @@ func (c *compiler) apply(code opcode, at model.Pos, what string, k float64, args
 		o.b = c.slot(args[1], at)
 	}
 	return ref{slot: c.emit(o, at, what)}, nil
+}
+
+// identity simplifies x+0, 0+x, x-0, x*1, 1*x and x/1 to x: exact in
+// floating point (up to the sign of a zero), and common in expanded models
+// ("(i == NF ? F*zF : 0)").
+func identity(code opcode, args []ref) (ref, bool) {
+	if len(args) != 2 {
+		return ref{}, false
+	}
+	a, b := args[0], args[1]
+	is := func(r ref, v float64) bool { return r.isConst && r.c == v }
+	switch code {
+	case opAdd:
+		if is(b, 0) {
+			return a, true
+		}
+		if is(a, 0) {
+			return b, true
+		}
+	case opSub:
+		if is(b, 0) {
+			return a, true
+		}
+	case opMul:
+		if is(b, 1) {
+			return a, true
+		}
+		if is(a, 1) {
+			return b, true
+		}
+	case opDiv:
+		if is(b, 1) {
+			return a, true
+		}
+	}
+	return ref{}, false
 }
 
 // fold evaluates an operation on constants with the same code that evaluates

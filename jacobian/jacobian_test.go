@@ -218,6 +218,10 @@ var opCases = []opCase{
 	{"constant folding", func(b *builder) model.Node {
 		return b.add(b.mul(b.mul(b.num(2), b.num(3)), b.x(0)), b.call(model.FnLog, b.num(10)))
 	}, func(x0, x1, p0 float64) [3]float64 { return [3]float64{6, 0, 0} }, 5},
+	{"identities", func(b *builder) model.Node {
+		// ((0 + x0*1) - 0)/1 + 0 is x0 with no arithmetic left.
+		return b.add(b.div(b.sub(b.add(b.num(0), b.mul(b.x(0), b.num(1))), b.num(0)), b.num(1)), b.num(0))
+	}, func(x0, x1, p0 float64) [3]float64 { return [3]float64{1, 0, 0} }, 1},
 	{"same unknown twice", func(b *builder) model.Node { return b.sub(b.mul(b.x(0), b.p(0)), b.x(0)) },
 		func(x0, x1, p0 float64) [3]float64 { return [3]float64{p0 - 1, 0, x0} }, 4},
 }
