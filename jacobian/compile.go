@@ -10,8 +10,8 @@ import (
 	"github.com/loopwright/loopwright/model"
 )
 
-// Program is a compiled model: one tape per equation, output and define. It
-// is immutable after Compile and safe for concurrent use through separate
+// Program is a compiled model: one tape per equation, output, define and
+// range check. It is immutable after Compile and safe for concurrent use through separate
 // Evals.
 type Program struct {
 	nx, np  int
@@ -27,10 +27,11 @@ type Program struct {
 	pTyp    []float64
 }
 
-// Compile compiles the equations, outputs, defines and checks of sys into tapes. It
-// fails when a formula made only of constants has no finite value (the error
-// is an *EvalError at its position), or when the system refers to an unknown
-// or parameter that does not exist.
+// Compile compiles the equations, outputs, defines and checks of sys into
+// tapes. It fails when a formula made only of constants has no finite value
+// or divides by a constant zero (an *EvalError at its position), or when the
+// system refers to an unknown or parameter that does not exist. Up to
+// maxErrors errors are joined into one.
 func Compile(sys *model.System) (*Program, error) {
 	prog := &Program{nx: len(sys.Unknowns), np: len(sys.Params)}
 	prog.xNames, prog.xTyp = names(sys.Unknowns)
@@ -45,9 +46,14 @@ func Compile(sys *model.System) (*Program, error) {
 	}
 	var errs []error
 	add := func(tapes []*tape, kind, name string, pos model.Pos, n model.Node) []*tape {
+		if len(errs) > maxErrors {
+			return tapes
+		}
 		t, err := c.compile(kind, name, pos, n)
 		if err != nil {
-			errs = append(errs, err)
+			if errs = append(errs, err); len(errs) > maxErrors {
+				errs[maxErrors] = fmt.Errorf("jacobian: too many errors")
+			}
 			return tapes
 		}
 		prog.maxOps = max(prog.maxOps, len(t.ops))
@@ -79,6 +85,9 @@ func Compile(sys *model.System) (*Program, error) {
 	prog.pattern = pat
 	return prog, nil
 }
+
+// maxErrors is the number of errors Compile reports before it stops.
+const maxErrors = 10
 
 func names(syms []model.Symbol) ([]string, []float64) {
 	n := make([]string, len(syms))

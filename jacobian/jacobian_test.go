@@ -2,9 +2,11 @@ package jacobian
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"slices"
+	"strings"
 	"sync"
 	"testing"
 
@@ -707,6 +709,21 @@ func TestCompileErrors(t *testing.T) {
 				t.Errorf("error %v, want %s", err, tc.want)
 			}
 		})
+	}
+}
+
+func TestCompileErrorCap(t *testing.T) {
+	sys := &model.System{}
+	for i := range 25 {
+		sys.Equations = append(sys.Equations, model.Equation{Name: fmt.Sprint("e", i),
+			Residual: &model.Call{Pos: model.Pos{File: "m.yaml", Line: i + 1, Col: 3}, Fn: model.FnSqrt,
+				Args: []model.Node{&model.Const{Value: -1}}}})
+	}
+	_, err := Compile(sys)
+	lines := strings.Split(fmt.Sprint(err), "\n")
+	if len(lines) != maxErrors+1 || lines[0] != `m.yaml:1:3: sqrt of a negative value (-1) in equation "e0"` ||
+		lines[maxErrors] != "jacobian: too many errors" {
+		t.Errorf("error has %d lines:\n%v", len(lines), err)
 	}
 }
 
