@@ -119,7 +119,7 @@ outputs:
 variables:
   m: {guess: 1}
 equations:
-  sum: m = a + b
+  total: m = a + b
 `
 
 func userLibrary(t *testing.T) (*Library, string) {
@@ -317,5 +317,44 @@ func TestEditDistance(t *testing.T) {
 		if d := editDistance(tt.a, tt.b); d != tt.d {
 			t.Errorf("editDistance(%q, %q) = %d, want %d", tt.a, tt.b, d, tt.d)
 		}
+	}
+}
+
+func TestLoad(t *testing.T) {
+	lib, dir := userLibrary(t)
+	tests := []struct {
+		arg, model, errWant string
+	}{
+		{"lib:blender", "blender", ""},
+		{"lib:mixer", "my-mixer", ""},
+		{filepath.Join(dir, "mixer.yaml"), "my-mixer", ""},
+		{"lib:colum", "", "did you mean lib:column?"},
+		// Messages about a user template name its file, with a position.
+		{"lib:broken", "", filepath.Join(dir, "broken.yml") + ":2:1: YAML syntax"},
+		{filepath.Join(dir, "absent.yaml"), "", "no such file"},
+	}
+	for _, tt := range tests {
+		f, err := lib.Load(tt.arg)
+		switch {
+		case tt.errWant != "":
+			if err == nil || !strings.Contains(err.Error(), tt.errWant) {
+				t.Errorf("Load(%s) error = %v, want it to contain %q", tt.arg, err, tt.errWant)
+			}
+		case err != nil:
+			t.Errorf("Load(%s): %v", tt.arg, err)
+		case f.Model != tt.model:
+			t.Errorf("Load(%s) model %q, want %q", tt.arg, f.Model, tt.model)
+		}
+	}
+	// A file literally named lib:x is reached as ./lib:x.
+	t.Chdir(dir)
+	if err := os.WriteFile("lib:mine.yaml", []byte(userTemplate), 0o644); err != nil {
+		t.Skipf("file system refuses the name: %v", err)
+	}
+	if f, err := lib.Load("./lib:mine.yaml"); err != nil || f.Model != "my-mixer" {
+		t.Errorf("Load(./lib:mine.yaml) = %v", err)
+	}
+	if _, err := lib.Load("lib:mine.yaml"); err == nil {
+		t.Error("Load(lib:mine.yaml) should be a template reference, and an invalid name")
 	}
 }

@@ -4,7 +4,6 @@ import (
 	"context"
 	"encoding/json"
 	"flag"
-	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -141,72 +140,17 @@ func (pt *point) unknown(t testing.TB, name string) float64 {
 	return pt.x[i]
 }
 
-// evalNode evaluates an expanded expression (used for the checks, which
-// the jacobian package does not compile).
-func evalNode(n model.Node, x, p []float64) float64 {
-	switch n := n.(type) {
-	case *model.Const:
-		return n.Value
-	case *model.Var:
-		return x[n.Index]
-	case *model.Param:
-		return p[n.Index]
-	case *model.Neg:
-		return -evalNode(n.X, x, p)
-	case *model.Binary:
-		a, b := evalNode(n.L, x, p), evalNode(n.R, x, p)
-		switch n.Op {
-		case model.OpAdd:
-			return a + b
-		case model.OpSub:
-			return a - b
-		case model.OpMul:
-			return a * b
-		case model.OpDiv:
-			return a / b
-		case model.OpPow:
-			return math.Pow(a, b)
-		}
-	case *model.Call:
-		args := make([]float64, len(n.Args))
-		for i, a := range n.Args {
-			args[i] = evalNode(a, x, p)
-		}
-		switch n.Fn {
-		case model.FnExp:
-			return math.Exp(args[0])
-		case model.FnLog:
-			return math.Log(args[0])
-		case model.FnLog10:
-			return math.Log10(args[0])
-		case model.FnSqrt:
-			return math.Sqrt(args[0])
-		case model.FnAbs:
-			return math.Abs(args[0])
-		case model.FnPow:
-			return math.Pow(args[0], args[1])
-		case model.FnMin, model.FnMax:
-			v := args[0]
-			for _, a := range args[1:] {
-				if n.Fn == model.FnMin {
-					v = math.Min(v, a)
-				} else {
-					v = math.Max(v, a)
-				}
-			}
-			return v
-		}
-	}
-	panic(fmt.Sprintf("evalNode: %T", n))
-}
-
 // failedChecks returns the names of the checks whose value lies outside
 // their range at the point.
-func (pt *point) failedChecks() []string {
+func (pt *point) failedChecks(t testing.TB) []string {
+	t.Helper()
+	v := make([]float64, pt.prog.NumChecks())
+	if err := pt.ev.Checks(v, pt.x, pt.p); err != nil {
+		t.Fatal(err)
+	}
 	var out []string
-	for _, c := range pt.sys.Checks {
-		v := evalNode(c.Expr, pt.x, pt.p)
-		if v < c.Min || v > c.Max {
+	for i, c := range pt.sys.Checks {
+		if v[i] < c.Min || v[i] > c.Max {
 			out = append(out, c.Name)
 		}
 	}
@@ -301,7 +245,7 @@ func TestTemplates(t *testing.T) {
 					}
 				}
 			}
-			if f := pt.failedChecks(); len(f) > 0 {
+			if f := pt.failedChecks(t); len(f) > 0 {
 				t.Errorf("checks fail at the nominal point: %v", f)
 			}
 
@@ -545,8 +489,40 @@ func TestBlenderRGAIsFlowFraction(t *testing.T) {
 func TestFlashChecksWarnOutOfRange(t *testing.T) {
 	hot := solveTemplate(t, "flash", nil, map[string]float64{"P_vac": 60e3, "P": 80e3})
 	T := hot.unknown(t, "T")
-	failed := hot.failedChecks()
+	failed := hot.failedChecks(t)
 	if T <= 342.69 || len(failed) == 0 || failed[0] != "antoine_hex" {
 		t.Errorf("T = %.2f K, failed checks %v; want T above 342.69 K and antoine_hex failing", T, failed)
+	}
+}
+
+// Every template solves from its own guesses at the four corners of its
+// envelope, and its checks hold there: the default sweep stays inside the
+// model's valid region.
+func TestTemplatesEnvelopeCorners(t *testing.T) {
+	for _, name := range embeddedTemplates {
+		t.Run(name, func(t *testing.T) {
+			nominal := solveTemplate(t, name, nil, nil)
+			axes := nominal.sys.Envelope
+			if len(axes) != 2 {
+				t.Fatalf("envelope has %d axes, want 2", len(axes))
+			}
+			for _, a := range axes {
+				if a.Points < 2 || a.From >= a.To {
+					t.Errorf("axis %s: %v..%v, %d points", nominal.sys.Params[a.Param].Name, a.From, a.To, a.Points)
+				}
+			}
+			for _, v0 := range []float64{axes[0].From, axes[0].To} {
+				for _, v1 := range []float64{axes[1].From, axes[1].To} {
+					set := map[string]float64{
+						nominal.sys.Params[axes[0].Param].Name: v0,
+						nominal.sys.Params[axes[1].Param].Name: v1,
+					}
+					pt := solveTemplate(t, name, nil, set)
+					if f := pt.failedChecks(t); len(f) > 0 {
+						t.Errorf("corner %v: checks fail: %v", set, f)
+					}
+				}
+			}
+		})
 	}
 }
