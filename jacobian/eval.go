@@ -122,7 +122,7 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		for k, vr := range t.vars {
 			d := e.adj[vr.slot]
 			if !finite(d) {
-				return t.derivFault(e.vals, e.prog.xNames[vr.index])
+				return t.derivFault(e.vals, e.adj, e.prog.xNames[vr.index])
 			}
 			row[k] = d
 		}
@@ -182,7 +182,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, x, p []float64, cols [
 			for _, vr := range t.vars {
 				d := e.adj[vr.slot]
 				if !finite(d) {
-					return t.derivFault(e.vals, e.prog.xNames[vr.index])
+					return t.derivFault(e.vals, e.adj, e.prog.xNames[vr.index])
 				}
 				row[vr.index] = d
 			}
@@ -203,7 +203,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, x, p []float64, cols [
 				e.padj[vr.index] = 0
 			}
 			if bad >= 0 {
-				return t.derivFault(e.vals, e.prog.pNames[bad])
+				return t.derivFault(e.vals, e.adj, e.prog.pNames[bad])
 			}
 		}
 	}

@@ -298,10 +298,14 @@ func opValueFault(o op, v []float64, k int) string {
 	return ""
 }
 
-// derivFault finds the first op whose partial derivatives are not finite
-// (after a forward sweep whose values are all finite) and describes it.
-func (t *tape) derivFault(v []float64, wrt string) *EvalError {
+// derivFault finds the first op that passes on a derivative but has a
+// partial derivative that is not finite, and describes it. v and d hold the
+// values and adjoints of the last sweeps (the values all finite).
+func (t *tape) derivFault(v, d []float64, wrt string) *EvalError {
 	for k, o := range t.ops[:t.root+1] {
+		if d[k] == 0 {
+			continue // the reverse sweep skipped it
+		}
 		da, db := partials(o, v, k)
 		if !o.code.binary() {
 			db = 0
@@ -310,11 +314,11 @@ func (t *tape) derivFault(v []float64, wrt string) *EvalError {
 			continue
 		}
 		a := v[o.a]
-		switch o.code {
-		case opPow:
-			if a < 0 {
-				return t.errAt(k, fmt.Sprintf("a negative base (%.6g) to a varying power has no real derivative with respect to the power", a))
-			}
+		switch {
+		case o.code == opPow && a < 0:
+			return t.errAt(k, fmt.Sprintf("a negative base (%.6g) to a varying power has no real derivative with respect to the power", a))
+		case o.code == opDiv:
+			return t.errAt(k, fmt.Sprintf("/ has an infinite derivative (denominator %.6g)", v[o.b]))
 		}
 		return t.errAt(k, fmt.Sprintf("%s has an infinite derivative at %.6g", t.what[k], a))
 	}
