@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -524,5 +525,21 @@ func TestTemplatesEnvelopeCorners(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// A CONFIG outside 1..3 must not silently fall back to one of the
+// configurations: the column then has no reflux or boilup and fails to
+// expand, naming the missing symbol.
+func TestColumnBadConfig(t *testing.T) {
+	f, err := New("").Load("lib:column")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, c := range []float64{0, 4} {
+		_, err := f.Expand(&model.ExpandOptions{Constants: map[string]float64{"CONFIG": c}})
+		if err == nil || !strings.Contains(err.Error(), `undefined name "L"`) {
+			t.Errorf("CONFIG %v: Expand error %v, want an undefined L", c, err)
+		}
 	}
 }
