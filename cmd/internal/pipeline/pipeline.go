@@ -50,24 +50,6 @@ func Compile(sys *model.System) (*jacobian.Program, error) {
 	return prog, nil
 }
 
-// Parameters returns the nominal parameter vector of sys (SI).
-func Parameters(sys *model.System) []float64 {
-	p := make([]float64, len(sys.Params))
-	for i, s := range sys.Params {
-		p[i] = s.Value
-	}
-	return p
-}
-
-// Guess returns the solver's starting point from the model's guesses (SI).
-func Guess(sys *model.System) []float64 {
-	x := make([]float64, len(sys.Unknowns))
-	for i, s := range sys.Unknowns {
-		x[i] = s.Value
-	}
-	return x
-}
-
 // Operate compiles sys and solves for its operating point from the model's
 // guesses at its nominal parameters. A solver failure comes back as a
 // *cli.FindingError wrapping *solve.NotConverged (whose text names the worst
@@ -80,12 +62,12 @@ func Operate(ctx context.Context, sys *model.System, opts *Options) (*Point, err
 	if err != nil {
 		return nil, err
 	}
-	pt := &Point{Sys: sys, Prog: prog, P: Parameters(sys)}
+	pt := &Point{Sys: sys, Prog: prog, P: solve.Params(sys)}
 	prob := solve.ProblemFor(prog, sys, pt.P)
 	if opts.FD {
 		useFiniteDifferences(prob, prog, pt.P)
 	}
-	res, err := solve.Newton(ctx, prob, Guess(sys), opts.Solve)
+	res, err := solve.Newton(ctx, prob, solve.Guess(sys), opts.Solve)
 	pt.Result = res
 	if res != nil {
 		pt.X = res.X
@@ -146,6 +128,7 @@ func (pt *Point) Gains() (*interact.GainSet, error) {
 	if err != nil {
 		return nil, &cli.FindingError{Err: err}
 	}
+	g.Source = fmt.Sprintf("model %s (%s) at its operating point", pt.Sys.Name, pt.Sys.File)
 	return g, nil
 }
 

@@ -7,7 +7,9 @@ import (
 
 	"github.com/loopwright/loopwright/cmd/internal/checkcmd"
 	"github.com/loopwright/loopwright/cmd/internal/cli"
+	"github.com/loopwright/loopwright/cmd/internal/gainscmd"
 	"github.com/loopwright/loopwright/cmd/internal/librarycmd"
+	"github.com/loopwright/loopwright/cmd/internal/paircmd"
 	"github.com/loopwright/loopwright/cmd/internal/solvecmd"
 )
 
@@ -16,6 +18,8 @@ func subcommands(f *cli.Factory) []*cobra.Command {
 	return []*cobra.Command{
 		checkcmd.NewCmdCheck(f, nil),
 		solvecmd.NewCmdSolve(f, nil),
+		gainscmd.NewCmdGains(f, nil),
+		paircmd.NewCmdPair(f, nil),
 		librarycmd.NewCmdLibrary(f, nil),
 	}
 }

@@ -93,14 +93,7 @@ func solveRun(opts *SolveOptions) error {
 	}
 	popts := &pipeline.Options{FD: opts.Jacobian == "fd", Solve: &solve.Options{}}
 	if opts.Trace {
-		popts.Solve.Recorder = func(it solve.Iteration) {
-			block := "all"
-			if it.Block >= 0 {
-				block = fmt.Sprint(it.Block)
-			}
-			fmt.Fprintf(opts.F.IO.ErrOut, "%-13s block %-4s t=%-6.4g iter %3d  |F|s=%-10.3e step=%-10.3e alpha=%.3g\n",
-				it.Method, block, it.T, it.Iter, it.ScaledResidualNorm, it.StepNorm, it.Alpha)
-		}
+		popts.Solve.Recorder = solve.Printer(opts.F.IO.ErrOut)
 	}
 	pt, solveErr := pipeline.Operate(opts.F.Context, sys, popts)
 	if pt == nil || pt.Result == nil {
