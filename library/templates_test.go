@@ -180,9 +180,22 @@ type golden struct {
 }
 
 func TestTemplates(t *testing.T) {
+	type walk struct {
+		golden, name string
+		consts       map[string]float64
+	}
+	var walks []walk
 	for _, name := range embeddedTemplates {
+		walks = append(walks, walk{name, name, nil})
+	}
+	// The column's other control configurations (CONFIG, see its about).
+	walks = append(walks,
+		walk{"column-dv", "column", map[string]float64{"CONFIG": 2}},
+		walk{"column-lb", "column", map[string]float64{"CONFIG": 3}})
+	for _, w := range walks {
+		name := w.golden
 		t.Run(name, func(t *testing.T) {
-			pt := solveTemplate(t, name, nil, nil)
+			pt := solveTemplate(t, w.name, w.consts, nil)
 			sys := pt.sys
 
 			// AD Jacobians against central differences, about 1e-6 relative.
