@@ -23,7 +23,7 @@ func Matrix(title, corner string, rows, cols []string, m mat.Matrix, sig int) *T
 }
 
 // Rows returns m as nested slices for JSON, NaN and Inf as null.
-func Rows(m mat.Matrix) [][]Float {
+func Rows(m *mat.Dense) [][]Float {
 	if m == nil {
 		return nil
 	}
