@@ -362,10 +362,18 @@ func (s *screener) detail(p Pairing) PairingResult {
 		case l > th.LambdaHigh:
 			cautions = append(cautions, fmt.Sprintf("%s has λ = %s > %s: the loop's gain falls to 1/%s of its open-loop value when the other loops close, and an error of 1/λ = %s%% in this gain alone would make K singular.", pair, fmtNum(l), fmtNum(th.LambdaHigh), fmtNum(l), fmtNum(100/l)))
 		}
-		if l < th.GoodLow || l > th.GoodHigh {
-			allGood = false
-		} else {
+		inBand := l >= th.LambdaLow && l <= th.LambdaHigh && a.K.At(i, j) != 0
+		switch {
+		case l >= th.GoodLow && l <= th.GoodHigh:
 			good = append(good, fmt.Sprintf("%s has λ = %s, close to 1.", pair, fmtNum(l)))
+		case inBand && l < 1:
+			allGood = false
+			good = append(good, fmt.Sprintf("%s has λ = %s: acceptable, but the loop's gain grows about %s times when the other loops close; tune it with them closed.", pair, fmtNum(l), fmtNum(1/l)))
+		case inBand:
+			allGood = false
+			good = append(good, fmt.Sprintf("%s has λ = %s: acceptable, but the loop's gain falls to 1/%s of its open-loop value when the other loops close; tune it with them closed.", pair, fmtNum(l), fmtNum(l)))
+		default:
+			allGood = false
 		}
 	}
 	r.RGANumber = s.sumAbs

@@ -63,6 +63,8 @@ func ExampleAnalyze() {
 	}
 	// Output:
 	// xD-R, xB-S: acceptable, score 4.038
+	//    xD paired with R has λ = 2.009: acceptable, but the loop's gain falls to 1/2.009 of its open-loop value when the other loops close; tune it with them closed.
+	//    xB paired with S has λ = 2.009: acceptable, but the loop's gain falls to 1/2.009 of its open-loop value when the other loops close; tune it with them closed.
 	// xD-S, xB-R: rejected, score 8.038
 	//    xD paired with S has λ = -1.009 < 0: the loop's gain changes sign when the other loops close, so a controller tuned with them open drives it the wrong way.
 	//    xB paired with R has λ = -1.009 < 0: the loop's gain changes sign when the other loops close, so a controller tuned with them open drives it the wrong way.
