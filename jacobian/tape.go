@@ -152,6 +152,10 @@ func (t *tape) reverse(d, v []float64) {
 			d[o.b] += g * v[o.a]
 		case opNeg:
 			d[o.a] -= g
+		case opDiv:
+			q := g / v[o.b]
+			d[o.a] += q
+			d[o.b] -= q * v[k]
 		default:
 			da, db := partials(o, v, k)
 			d[o.a] += g * da
