@@ -683,6 +683,35 @@ func TestDerivativeErrorsOnlyWhenAsked(t *testing.T) {
 	}
 }
 
+// TestPowerAtZero: 0^c is fine for c >= 1, in value and derivative, with a
+// constant or a varying exponent (d/dy of x^y at x = 0 is taken as 0).
+func TestPowerAtZero(t *testing.T) {
+	for _, tc := range []struct {
+		name string
+		expr model.Node
+		x    []float64
+		want []float64 // gradient
+	}{
+		{"x^1.5", &model.Binary{Op: model.OpPow, L: &model.Var{}, R: &model.Const{Value: 1.5}}, []float64{0, 0}, []float64{0, 0}},
+		{"x^2", &model.Binary{Op: model.OpPow, L: &model.Var{}, R: &model.Const{Value: 2}}, []float64{0, 0}, []float64{0, 0}},
+		{"x^3", &model.Binary{Op: model.OpPow, L: &model.Var{}, R: &model.Const{Value: 3}}, []float64{0, 0}, []float64{0, 0}},
+		{"x^y, y=1", &model.Binary{Op: model.OpPow, L: &model.Var{}, R: &model.Var{Index: 1}}, []float64{0, 1}, []float64{1, 0}},
+		{"x^y, y=2.5", &model.Binary{Op: model.OpPow, L: &model.Var{}, R: &model.Var{Index: 1}}, []float64{0, 2.5}, []float64{0, 0}},
+	} {
+		sys := &model.System{Unknowns: unknowns("x", "y"), Equations: []model.Equation{{Name: tc.name, Residual: tc.expr}}}
+		prog := mustCompile(t, sys)
+		jac := prog.NewJacobian()
+		if err := prog.NewEval().Jacobian(jac, tc.x, nil); err != nil {
+			t.Errorf("%s: %v", tc.name, err)
+			continue
+		}
+		got := jac.Dense().RawRowView(0)
+		if !slices.Equal(got, tc.want) {
+			t.Errorf("%s at %v: gradient %v, want %v", tc.name, tc.x, got, tc.want)
+		}
+	}
+}
+
 func TestCompileErrors(t *testing.T) {
 	at := model.Pos{File: "m.yaml", Line: 4, Col: 9}
 	for _, tc := range []struct {
