@@ -305,3 +305,13 @@ func names4(n int, prefix string) []string {
 	}
 	return out
 }
+
+func TestAnalyzeSingleLoop(t *testing.T) {
+	a, err := Analyze(gainSet(mat.NewDense(1, 1, []float64{-3}), []string{"T"}, []string{"steam"}), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(a.Pairings) != 1 || a.Pairings[0].Verdict != Recommended || a.MinCond != 1 || a.Pairings[0].Label != "T-steam" {
+		t.Errorf("%+v", a.Pairings)
+	}
+}

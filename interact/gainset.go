@@ -59,7 +59,9 @@ func ParseScaling(s string) (Scaling, error) {
 // by its output's span and multiplies each column by its input's (or
 // disturbance's) span; nominal scaling does the same with nominal values. The
 // error names the first signal lacking a span or having a zero nominal value.
-// The RGA and the minimised condition number do not depend on the scaling;
+// Nominal scaling only makes sense for absolute units: with an affine unit
+// (degC, barg) the zero is arbitrary. The RGA and the minimised condition
+// number do not depend on the scaling;
 // singular values, the plain condition number and disturbance gains do.
 func (g *GainSet) Scaled(s Scaling) (k, kd *mat.Dense, err error) {
 	g.check()
