@@ -125,7 +125,12 @@ type cell struct {
 
 const sig = 4 // significant digits of ordinary numbers
 
-func num(v float64) string { return render.Num(v, sig) }
+func num(v float64) string {
+	if math.IsNaN(v) {
+		return "–"
+	}
+	return render.Num(v, sig)
+}
 
 func numCell(v float64) cell { return cell{Text: num(v), Num: true} }
 
@@ -204,13 +209,13 @@ func buildModel(d *document, sys *model.System) {
 	}
 	d.Params = paramTable("parameters", "Fixed parameters (assumptions of the model)", sys, fixed, false)
 
-	t := &table{ID: "outputs", Caption: "Controlled outputs", Cols: []col{{Name: "output"}, {Name: "unit"}, {Name: "span", Num: true}, {Name: "defined at"}}}
+	t := &table{ID: "outputs", Caption: "Controlled outputs", Cols: []col{{Name: "output"}, {Name: "unit"}, {Name: "span", Num: true}}}
 	for _, o := range sys.Outputs {
 		span := ""
 		if o.Span > 0 {
 			span = num(o.Span / o.Unit.DiffScale())
 		}
-		t.Rows = append(t.Rows, row{Cells: []cell{textCell(o.Name), textCell(unitText(o.Unit)), {Text: span, Num: true}, textCell(o.Pos.String())}})
+		t.Rows = append(t.Rows, row{Cells: []cell{textCell(o.Name), textCell(unitText(o.Unit)), {Text: span, Num: true}}})
 	}
 	if len(t.Rows) > 0 {
 		t.Notes = []string{"Span: the range over which the output is expected to move in operation, used by span scaling."}
@@ -424,7 +429,7 @@ func bandOf(l float64) band {
 
 func lambdaCell(l float64, paired bool) cell {
 	b := bandOf(l)
-	c := cell{Text: render.Num(l, 3), Num: true, Class: "rga " + b.Class, Mark: b.Mark, Strong: paired}
+	c := cell{Text: lambdaText(l), Num: true, Class: "rga " + b.Class, Mark: b.Mark, Strong: paired}
 	if paired {
 		c.Class += " paired"
 		c.Pre = "▸"
@@ -451,10 +456,17 @@ var verdictClass = map[interact.Verdict]string{
 	interact.Rejected:    "v-rej",
 }
 
+func lambdaText(l float64) string {
+	if math.IsNaN(l) {
+		return "–"
+	}
+	return render.Num(l, 3)
+}
+
 func lambdaList(ls []float64) string {
 	s := make([]string, len(ls))
 	for i, l := range ls {
-		s[i] = render.Num(l, 3)
+		s[i] = lambdaText(l)
 	}
 	return strings.Join(s, ", ")
 }
@@ -829,7 +841,7 @@ func rangeOf(r sweep.Range) string {
 	if math.IsNaN(lo) && math.IsNaN(hi) {
 		return "–"
 	}
-	return render.Num(lo, 3) + " … " + render.Num(hi, 3)
+	return lambdaText(lo) + " … " + lambdaText(hi)
 }
 
 func pct(f float64) string {

@@ -16,7 +16,9 @@ import (
 	"fmt"
 	"html/template"
 	"io"
+	"strings"
 
+	"github.com/loopwright/loopwright/cmd/internal/plots"
 	"github.com/loopwright/loopwright/interact"
 	"github.com/loopwright/loopwright/interact/sweep"
 	"github.com/loopwright/loopwright/model"
@@ -94,4 +96,30 @@ func Write(w io.Writer, in *Input) error {
 	}
 	_, err = w.Write(buf.Bytes())
 	return err
+}
+
+// PlotsOf draws every plot of a sweep (plots.Data.Files) for the report,
+// each with a caption saying what it shows.
+func PlotsOf(d *plots.Data) ([]Plot, error) {
+	var out []Plot
+	for _, f := range d.Files() {
+		var b bytes.Buffer
+		if err := f.Draw(&b); err != nil {
+			return nil, fmt.Errorf("report: plot %s: %w", f.Name, err)
+		}
+		out = append(out, Plot{Title: plotTitle(f.Name), SVG: b.Bytes()})
+	}
+	return out, nil
+}
+
+// plotTitle turns a plot's file name into a caption.
+func plotTitle(name string) string {
+	base := strings.TrimSuffix(name, ".svg")
+	switch {
+	case strings.HasPrefix(base, "lambda-"):
+		return "Paired relative gains of the pairings of interest along " + strings.TrimPrefix(base, "lambda-") + " (other axes held nearest their nominal values; gaps where points did not converge)."
+	case strings.HasPrefix(base, "heatmap-"):
+		return "Relative gain of the recommended pairing over the first two axes (" + strings.TrimPrefix(base, "heatmap-") + "); the thick black line is where the best pairing switches."
+	}
+	return base
 }
