@@ -24,6 +24,9 @@ func (e *expander) ceval(x formula.Expr, c *ctx, depth int) (float64, *cerr) {
 	if depth > maxEvalDepth {
 		return 0, &cerr{c.at(x.Offset()), "expression is nested too deeply"}
 	}
+	// Constant expressions share the node budget, so nested sums cannot
+	// run for ever.
+	e.node()
 	at := func(off int, format string, args ...any) *cerr {
 		return &cerr{c.at(off), fmt.Sprintf(format, args...)}
 	}

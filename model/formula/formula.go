@@ -101,7 +101,7 @@ type Logical struct {
 
 // Cond is C ? A : B.
 type Cond struct {
-	Off     int
+	Off     int // the condition's position
 	C, A, B Expr
 }
 
@@ -491,7 +491,9 @@ func (t *translator) expr(n ast.Node) (Expr, error) {
 		if err != nil {
 			return nil, err
 		}
-		return &Cond{Off: t.at(n), C: c, A: a, B: b}, nil
+		// expr locates a conditional at its else branch; the condition's
+		// own position is the more useful one.
+		return &Cond{Off: c.Offset(), C: c, A: a, B: b}, nil
 	case *ast.MemberNode:
 		return t.member(n)
 	case *ast.CallNode:
