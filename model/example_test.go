@@ -3,6 +3,7 @@ package model_test
 import (
 	"fmt"
 	"os"
+	"strings"
 
 	"github.com/loopwright/loopwright/model"
 )
@@ -63,4 +64,50 @@ func ExampleFile_Expand() {
 	// tray[16] uses unknowns [14 15 16]
 	// output top
 	// output bottom
+}
+
+func ExampleWalk() {
+	file, err := model.Load("mix.yaml", strings.NewReader(`model: mix
+parameters:
+  k: {value: 2, unit: 1/s}
+variables:
+  c: {unit: mol/m^3, guess: 1}
+  r: {unit: mol/(m^3*s)}
+equations:
+  rate: r = k * c^2 / (1 mol/m^3)
+`))
+	if err == nil {
+		_, err = file.Expand(nil)
+	}
+	model.PrintError(os.Stdout, err)
+
+	file, _ = model.Load("mix.yaml", strings.NewReader(`model: mix
+parameters:
+  k: {value: 2, unit: 1/s}
+  c0: {value: 1, unit: mol/m^3}
+variables:
+  c: {unit: mol/m^3, guess: 1}
+  r: {unit: mol/(m^3*s)}
+equations:
+  rate: r = k * c^2 / c0
+  feed: c = c0
+`))
+	sys, _ := file.Expand(nil)
+	model.Walk(sys.Equations[0].Residual, func(n model.Node) {
+		switch n := n.(type) {
+		case *model.Var:
+			fmt.Println("unknown", sys.Unknowns[n.Index].Name, "at", n.Pos)
+		case *model.Param:
+			fmt.Println("parameter", sys.Params[n.Index].Name, "at", n.Pos)
+		}
+	})
+	role, i, _ := sys.Lookup("c0")
+	fmt.Println(role, i)
+	// Output:
+	// mix.yaml:8:26: unexpected token Identifier("mol")
+	// unknown r at mix.yaml:9:9
+	// parameter k at mix.yaml:9:13
+	// unknown c at mix.yaml:9:17
+	// parameter c0 at mix.yaml:9:23
+	// parameter 1
 }

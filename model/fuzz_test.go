@@ -3,10 +3,10 @@ package model
 import (
 	"bytes"
 	"fmt"
-	"time"
 	"os"
 	"path/filepath"
 	"testing"
+	"time"
 )
 
 // FuzzLoad loads and expands arbitrary bytes: no input may panic or hang.

@@ -184,6 +184,11 @@ func ParseEquation(src string) (lhs, rhs Expr, eq int, err error) {
 		}
 	}
 	if eq < 0 {
+		for _, t := range toks {
+			if t.Kind == lexer.Operator && t.Value == "==" {
+				return nil, nil, 0, errAt(t.From, `an equation needs one "=" between its two sides; "==" is a comparison`)
+			}
+		}
 		return nil, nil, 0, errAt(0, `an equation needs the form "lhs = rhs": no "=" found`)
 	}
 	rs := []rune(src)
