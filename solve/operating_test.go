@@ -86,3 +86,16 @@ func BenchmarkOperatingColumnYAML(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkOperatingColumn4YAML is a cold solve of the 200-stage,
+// 4-component column built from constants in testdata/models/column4.yaml
+// (800 unknowns, one block).
+func BenchmarkOperatingColumn4YAML(b *testing.B) {
+	sys, prog := loadModel(b, "column4.yaml")
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := Operating(context.Background(), prog, sys, nil, nil, nil); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
