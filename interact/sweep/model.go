@@ -353,21 +353,33 @@ func systemID(sys *model.System) string {
 		sym("p", s)
 	}
 	fmt.Fprintf(&b, "in %v dist %v\n", sys.Inputs, sys.Disturbances)
+	seen := map[model.Node]int{}
 	for _, e := range sys.Equations {
 		b.WriteString("eq " + e.Name + " ")
-		writeNode(&b, e.Residual, map[model.Node]bool{})
+		writeNode(&b, e.Residual, seen)
 		b.WriteByte('\n')
 	}
 	for _, o := range sys.Outputs {
 		b.WriteString("out " + o.Name + " " + o.Unit.Text + " ")
-		writeNode(&b, o.Expr, map[model.Node]bool{})
+		writeNode(&b, o.Expr, seen)
 		b.WriteByte('\n')
 	}
 	h.Write([]byte(b.String()))
 	return hex.EncodeToString(h.Sum(nil))
 }
 
-func writeNode(b *strings.Builder, n model.Node, _ map[model.Node]bool) {
+// writeNode prints the tree; a subtree shared by pointer (a define used
+// many times) is printed once and referred to as #k afterwards, which keeps
+// the text linear in the size of the expanded model.
+func writeNode(b *strings.Builder, n model.Node, seen map[model.Node]int) {
+	if k, ok := seen[n]; ok {
+		fmt.Fprintf(b, "#%d", k)
+		return
+	}
+	switch n.(type) {
+	case *model.Neg, *model.Binary, *model.Call:
+		seen[n] = len(seen)
+	}
 	switch n := n.(type) {
 	case *model.Const:
 		b.WriteString(strconv.FormatFloat(n.Value, 'g', -1, 64))
@@ -377,13 +389,13 @@ func writeNode(b *strings.Builder, n model.Node, _ map[model.Node]bool) {
 		fmt.Fprintf(b, "p%d", n.Index)
 	case *model.Neg:
 		b.WriteString("(-")
-		writeNode(b, n.X, nil)
+		writeNode(b, n.X, seen)
 		b.WriteByte(')')
 	case *model.Binary:
 		b.WriteByte('(')
-		writeNode(b, n.L, nil)
+		writeNode(b, n.L, seen)
 		b.WriteByte(byte(n.Op))
-		writeNode(b, n.R, nil)
+		writeNode(b, n.R, seen)
 		b.WriteByte(')')
 	case *model.Call:
 		b.WriteString(string(n.Fn) + "(")
@@ -391,7 +403,7 @@ func writeNode(b *strings.Builder, n model.Node, _ map[model.Node]bool) {
 			if i > 0 {
 				b.WriteByte(',')
 			}
-			writeNode(b, a, nil)
+			writeNode(b, a, seen)
 		}
 		b.WriteByte(')')
 	default:
