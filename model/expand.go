@@ -899,7 +899,7 @@ func (e *expander) outputsPass() {
 				items = append(items, item{memberName(o.name, idx), v, u, v.d})
 			}
 		} else {
-			e.undefined(o.pos, o.name, what+" names nothing known:", "; give of: \"<expression>\" for a derived output")
+			e.undefined(o.pos, o.name, what+" names nothing known:")
 			continue
 		}
 		for _, it := range items {

@@ -1074,6 +1074,8 @@ func nearest(s string, candidates []string) string {
 	return best
 }
 
+// editDistance is the optimal-string-alignment distance: insertions,
+// deletions, substitutions and swaps of neighbours each count one.
 func editDistance(a, b string) int {
 	ra, rb := []rune(a), []rune(b)
 	if len(ra) > 64 || len(rb) > 64 {
@@ -1082,27 +1084,27 @@ func editDistance(a, b string) int {
 		}
 		return 1 << 20
 	}
-	prev := make([]int, len(rb)+1)
-	cur := make([]int, len(rb)+1)
-	for j := range prev {
-		prev[j] = j
+	d := make([][]int, len(ra)+1)
+	for i := range d {
+		d[i] = make([]int, len(rb)+1)
+		d[i][0] = i
+	}
+	for j := range d[0] {
+		d[0][j] = j
 	}
 	for i := 1; i <= len(ra); i++ {
-		cur[0] = i
 		for j := 1; j <= len(rb); j++ {
 			c := 1
 			if ra[i-1] == rb[j-1] {
 				c = 0
 			}
-			cur[j] = min(prev[j]+1, cur[j-1]+1, prev[j-1]+c)
-			// a swap of two neighbours counts as one edit
+			d[i][j] = min(d[i-1][j]+1, d[i][j-1]+1, d[i-1][j-1]+c)
 			if i > 1 && j > 1 && ra[i-1] == rb[j-2] && ra[i-2] == rb[j-1] {
-				cur[j] = min(cur[j], prev[j-1]) // approximate transposition
+				d[i][j] = min(d[i][j], d[i-2][j-2]+1)
 			}
 		}
-		prev, cur = cur, prev
 	}
-	return prev[len(rb)]
+	return d[len(ra)][len(rb)]
 }
 
 func sortedKeys[M ~map[string]V, V any](m M) []string {

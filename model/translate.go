@@ -245,9 +245,8 @@ func (e *expander) allNames() []string {
 	return names
 }
 
-func (e *expander) undefined(pos Pos, name, prefix, suffix string) {
+func (e *expander) undefined(pos Pos, name, prefix string) {
 	e.undefinedIn(pos, name, fmt.Sprintf("%s undefined name %q", prefix, name), e.allNames())
-	_ = suffix
 }
 
 func (e *expander) undefinedIn(pos Pos, name, msg string, names []string) {
@@ -376,7 +375,7 @@ func (e *expander) ident(x *formula.Ident, c *ctx) (val, bool) {
 		e.errorf(pos, "%s: %q is a set; use it in a for clause or sum(i in %s, ...)", c.what, x.Name, x.Name)
 		return val{}, false
 	}
-	e.undefined(pos, x.Name, c.what+":", "")
+	e.undefined(pos, x.Name, c.what+":")
 	return val{}, false
 }
 
@@ -424,7 +423,7 @@ func (e *expander) index(x *formula.Index, c *ctx) (val, bool) {
 			e.errorf(pos, "%s: %q is a constant, not a family; it cannot be indexed", c.what, x.Name)
 			return val{}, false
 		}
-		e.undefined(pos, x.Name, c.what+":", "")
+		e.undefined(pos, x.Name, c.what+":")
 		return val{}, false
 	}
 	if len(ranges) == 0 {
