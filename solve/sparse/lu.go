@@ -261,6 +261,10 @@ func (f *LU) eliminate() error {
 		if cands == 0 {
 			return &SingularError{Col: col, Row: -1, Structural: true}
 		}
+		if ipiv < 0 {
+			// Every candidate is exactly zero: numerically singular.
+			return &SingularError{Col: col, Row: -1}
+		}
 		if r := f.pref[col]; r >= 0 && f.pinv[r] < 0 && mark[r] == stamp && math.Abs(x[r]) >= f.tau*amax {
 			ipiv = r
 		}

@@ -201,9 +201,14 @@ func TestSingular(t *testing.T) {
 		{"equal rows", [][]float64{{1, 2}, {1, 2}}, -1, false},
 		{"dependent columns", [][]float64{{1, 2, 0}, {2, 4, 0}, {0, 0, 1}}, -1, false},
 		{"all zero values", [][]float64{{0, 0}, {0, 0}}, -1, false},
+		// The Jacobian of x*x + u = 0, y - x - v = 0 at x = 0: the only
+		// candidate left for the second pivot is a zero reached through L.
+		{"zero reached through L", [][]float64{{0, 0}, {-1, 1}}, -1, false},
 	}
 	for _, tt := range tests {
-		a := fromDense(tt.d, func(i, j int) bool { return tt.name == "all zero values" })
+		a := fromDense(tt.d, func(i, j int) bool {
+			return tt.name == "all zero values" || (tt.name == "zero reached through L" && i == 0 && j == 0)
+		})
 		_, err := Factorize(a, nil)
 		var se *SingularError
 		if !errors.As(err, &se) {
