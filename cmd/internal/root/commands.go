@@ -10,7 +10,9 @@ import (
 	"github.com/loopwright/loopwright/cmd/internal/gainscmd"
 	"github.com/loopwright/loopwright/cmd/internal/librarycmd"
 	"github.com/loopwright/loopwright/cmd/internal/paircmd"
+	"github.com/loopwright/loopwright/cmd/internal/reportcmd"
 	"github.com/loopwright/loopwright/cmd/internal/solvecmd"
+	"github.com/loopwright/loopwright/cmd/internal/sweepcmd"
 )
 
 // subcommands returns the subcommands in help order.
@@ -20,6 +22,9 @@ func subcommands(f *cli.Factory) []*cobra.Command {
 		solvecmd.NewCmdSolve(f, nil),
 		gainscmd.NewCmdGains(f, nil),
 		paircmd.NewCmdPair(f, nil),
+		sweepcmd.NewCmdSweep(f, nil),
+		sweepcmd.NewCmdMerge(f, nil),
+		reportcmd.NewCmdReport(f, nil),
 		librarycmd.NewCmdLibrary(f, nil),
 	}
 }
