@@ -102,6 +102,14 @@ func TestMinConditionNumberMatchesGMH(t *testing.T) {
 		if !near(got, want, 1e-6) {
 			t.Errorf("K=%v: γ* = %.9g, GMH formula %.9g", k.RawMatrix().Data, got, want)
 		}
+		// The closed-form scalings against the numerical minimisation.
+		num, _, _, err := minCondNumeric(k)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !near(num, want, 1e-6) {
+			t.Errorf("K=%v: numerical γ* = %.9g, GMH formula %.9g", k.RawMatrix().Data, num, want)
+		}
 	}
 }
 
