@@ -183,6 +183,7 @@ func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
 	if err := RGA(a.RGA, a.K); err != nil {
 		return nil, &SingularError{What: "the gain matrix K (" + strings.Join(names(a.Outputs), ", ") + " by " + strings.Join(names(a.Inputs), ", ") + ")", Cond: float64(asCondition(err))}
 	}
+	zeroRoundoff(a.RGA)
 	a.Sensitivity = ElementSensitivity(a.RGA)
 	a.Det = mat.Det(a.K)
 	if a.SVD, err = SVD(a.K); err != nil {
@@ -313,7 +314,7 @@ func (s *screener) screen(p Pairing) candidate {
 		l := s.a.RGA.At(i, j)
 		rgaNum += math.Abs(l-1) - math.Abs(l)
 		switch {
-		case l < 0 || s.a.K.At(i, j) == 0:
+		case l <= 0 || s.a.K.At(i, j) == 0:
 			c.rejected = true
 		case l < s.th.LambdaLow || l > s.th.LambdaHigh:
 			cautions++
@@ -357,6 +358,8 @@ func (s *screener) detail(p Pairing) PairingResult {
 		switch {
 		case a.K.At(i, j) == 0:
 			rejects = append(rejects, fmt.Sprintf("%s: the steady-state gain is zero, so this input cannot hold this output.", pair))
+		case l == 0:
+			rejects = append(rejects, fmt.Sprintf("%s has λ = 0 (to rounding): the input's effect on this output vanishes once the other loops close, so this pair cannot form a loop.", pair))
 		case l < 0:
 			rejects = append(rejects, fmt.Sprintf("%s has λ = %s < 0: the loop's gain changes sign when the other loops close, so a controller tuned with them open drives it the wrong way.", pair, fmtNum(l)))
 		case l < th.LambdaLow:
@@ -556,4 +559,27 @@ func fmtNum(v float64) string {
 		return strconv.FormatFloat(v, 'e', 3, 64)
 	}
 	return strconv.FormatFloat(v, 'g', 4, 64)
+}
+
+// zeroRoundoff sets relative gains that are zero but for rounding (a gain
+// that is structurally zero comes out of the implicit-function theorem as
+// ±1e-17, say) to exactly zero, so that rounding noise never decides a
+// sign screen. The threshold is 1e-10 of the largest |λ|, and at least 1e-10.
+func zeroRoundoff(rga *mat.Dense) {
+	raw := rga.RawMatrix()
+	big := 1.0
+	for i := 0; i < raw.Rows; i++ {
+		for _, v := range raw.Data[i*raw.Stride : i*raw.Stride+raw.Cols] {
+			big = math.Max(big, math.Abs(v))
+		}
+	}
+	tol := 1e-10 * big
+	for i := 0; i < raw.Rows; i++ {
+		row := raw.Data[i*raw.Stride : i*raw.Stride+raw.Cols]
+		for j, v := range row {
+			if math.Abs(v) < tol {
+				row[j] = 0
+			}
+		}
+	}
 }

@@ -315,3 +315,30 @@ func TestAnalyzeSingleLoop(t *testing.T) {
 		t.Errorf("%+v", a.Pairings)
 	}
 }
+
+// TestRoundoffLambdaIsZero: a gain that is zero but for rounding must not
+// decide the sign screen (common practice: treat |λ| below rounding as 0).
+func TestRoundoffLambdaIsZero(t *testing.T) {
+	// A mixer whose first output does not depend on the second input: the
+	// (1,2) gain is 1e-18 instead of 0, as the implicit-function theorem
+	// can leave it.
+	g := &GainSet{
+		Outputs: []Signal{{Name: "a"}, {Name: "b"}},
+		Inputs:  []Signal{{Name: "u"}, {Name: "v"}},
+		K:       mat.NewDense(2, 2, []float64{2, -1e-18, 1, 3}),
+	}
+	a, err := Analyze(g, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if l := a.RGA.At(0, 1); l != 0 {
+		t.Errorf("λ12 = %g, want exactly 0", l)
+	}
+	best := a.Pairings[0]
+	if best.Label != "a-u, b-v" || best.Verdict == Rejected {
+		t.Errorf("best pairing %s (%v), want a-u, b-v not rejected", best.Label, best.Verdict)
+	}
+	if last := a.Pairings[len(a.Pairings)-1]; last.Verdict != Rejected {
+		t.Errorf("pairing %s on the zero relative gains is %v, want rejected", last.Label, last.Verdict)
+	}
+}
