@@ -56,6 +56,33 @@ type Between struct {
 	B    *Where `json:"b,omitempty"`
 }
 
+// Describe names the point with its axis values in axis order:
+// "point 14 (f_caustic 2800 kg/h)".
+func (w Where) Describe(axes []AxisInfo) string {
+	parts := make([]string, 0, len(axes))
+	for _, a := range axes {
+		v, ok := w.At[a.Name]
+		if !ok {
+			continue
+		}
+		p := fmt.Sprintf("%s %.6g", a.Name, v)
+		if a.Unit != "" {
+			p += " " + a.Unit
+		}
+		parts = append(parts, p)
+	}
+	return fmt.Sprintf("point %d (%s)", w.Index, strings.Join(parts, ", "))
+}
+
+// Describe says where it happens: "between point 14 (...) and point 15 (...)",
+// or "at point 3 (...)".
+func (b Between) Describe(axes []AxisInfo) string {
+	if b.B == nil {
+		return "at " + b.A.Describe(axes)
+	}
+	return "between " + b.A.Describe(axes) + " and " + b.B.Describe(axes)
+}
+
 // Range is the smallest and largest value of a quantity over the converged
 // points, with where they occur. Min and Max are NaN (null) when no point
 // has a finite value.
@@ -206,7 +233,7 @@ func Summarize(h *Header, recs []Record) (*Summary, error) {
 			}
 			return r.NI[k]
 		})
-		ps.Verdict = verdict(&ps, len(analysed), len(s.Singular) > 0)
+		ps.Verdict = verdict(&ps, len(analysed), len(s.Singular) > 0, s.Axes)
 		s.Pairings = append(s.Pairings, ps)
 	}
 	return s, nil
@@ -241,7 +268,7 @@ func rangeOf(name string, recs []*Record, where func(*Record) Where, f func(*Rec
 }
 
 // verdict says in plain words whether the pairing holds over the envelope.
-func verdict(ps *PairingSummary, analysed int, singular bool) string {
+func verdict(ps *PairingSummary, analysed int, singular bool, axes []AxisInfo) string {
 	if analysed == 0 {
 		return "no point could be analysed: nothing to judge"
 	}
@@ -249,8 +276,8 @@ func verdict(ps *PairingSummary, analysed int, singular bool) string {
 	var parts []string
 	switch {
 	case len(ps.SignChanges) > 0:
-		parts = append(parts, fmt.Sprintf("unsafe: a paired relative gain changes sign inside the envelope (%d places, first between points %d and %d); the loops lose integrity there",
-			len(ps.SignChanges), ps.SignChanges[0].A.Index, ps.SignChanges[0].B.Index))
+		parts = append(parts, fmt.Sprintf("unsafe: a paired relative gain changes sign inside the envelope (%d places, first %s); the loops lose integrity there",
+			len(ps.SignChanges), ps.SignChanges[0].Describe(axes)))
 	case ps.PassShare == 1:
 		parts = append(parts, fmt.Sprintf("holds across the envelope: passes every screen at all %d analysed points", analysed))
 	case ps.PassShare >= 0.5:

@@ -405,11 +405,7 @@ func printSummary(w io.Writer, s *sweep.Summary) {
 				fmt.Fprintf(w, "  ... and %d more (see the summary file)\n", len(b)-5)
 				break
 			}
-			if x.B == nil {
-				fmt.Fprintf(w, "  %s at point %d\n", x.What, x.A.Index)
-			} else {
-				fmt.Fprintf(w, "  %s between points %d and %d\n", x.What, x.A.Index, x.B.Index)
-			}
+			fmt.Fprintf(w, "  %s %s\n", x.What, x.Describe(s.Axes))
 		}
 	}
 	list("Best pairing switches", s.Switches)
@@ -421,7 +417,7 @@ func printSummary(w io.Writer, s *sweep.Summary) {
 				fmt.Fprintf(w, "  ... and %d more\n", len(s.Failed)-5)
 				break
 			}
-			fmt.Fprintf(w, "  point %d: %s\n", x.Index, x.Reason)
+			fmt.Fprintf(w, "  %s: %s\n", x.Describe(s.Axes), x.Reason)
 		}
 	}
 	if s.Caution != "" {
