@@ -13,7 +13,6 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/loopwright/loopwright/cmd/internal/cli"
-	"github.com/loopwright/loopwright/cmd/internal/modelarg"
 	"github.com/loopwright/loopwright/cmd/internal/pipeline"
 	"github.com/loopwright/loopwright/cmd/internal/render"
 	"github.com/loopwright/loopwright/interact"
@@ -21,13 +20,10 @@ import (
 
 // GainsOptions are the inputs of the gains command.
 type GainsOptions struct {
-	F         *cli.Factory
-	Model     string
-	GainsFile string
-	Format    string
-	Scaling   string
-	Jacobian  string
-	Flags     modelarg.Flags
+	F       *cli.Factory
+	Format  string
+	Scaling string
+	Source  pipeline.GainFlags
 }
 
 // NewCmdGains returns the gains command. runF replaces the run function in tests.
@@ -55,7 +51,7 @@ units such as degC count as differences) and scaled:
 		Args: cobra.MaximumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if len(args) == 1 {
-				opts.Model = args[0]
+				opts.Source.Model = args[0]
 			}
 			if runF != nil {
 				return runF(opts)
@@ -63,11 +59,9 @@ units such as degC count as differences) and scaled:
 			return gainsRun(opts)
 		},
 	}
-	cmd.Flags().StringVar(&opts.GainsFile, "gains", "", "read a measured gain matrix (CSV or YAML) instead of a MODEL")
 	cmd.Flags().StringVar(&opts.Format, "format", "table", "output format: table, json or csv")
 	cmd.Flags().StringVar(&opts.Scaling, "scaling", "auto", "scaling shown besides engineering units: span, nominal, none, or auto (span when every signal has one)")
-	cmd.Flags().StringVar(&opts.Jacobian, "jacobian", "ad", "Jacobian for Newton: ad or fd")
-	opts.Flags.Register(cmd)
+	opts.Source.Register(cmd)
 	return cmd
 }
 
@@ -112,10 +106,7 @@ func gainsRun(opts *GainsOptions) error {
 	if err != nil {
 		return &cli.FlagError{Err: err}
 	}
-	if opts.Jacobian != "ad" && opts.Jacobian != "fd" {
-		return cli.FlagErrorf("--jacobian %q: use ad or fd", opts.Jacobian)
-	}
-	src, err := pipeline.LoadGains(opts.F.Context, opts.F, opts.Model, &opts.Flags, opts.GainsFile, &pipeline.Options{FD: opts.Jacobian == "fd"})
+	src, err := opts.Source.Load(opts.F)
 	if err != nil {
 		return err
 	}

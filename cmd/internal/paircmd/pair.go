@@ -12,7 +12,6 @@ import (
 
 	"github.com/loopwright/loopwright/cmd/internal/cli"
 	"github.com/loopwright/loopwright/cmd/internal/gainscmd"
-	"github.com/loopwright/loopwright/cmd/internal/modelarg"
 	"github.com/loopwright/loopwright/cmd/internal/pipeline"
 	"github.com/loopwright/loopwright/cmd/internal/render"
 	"github.com/loopwright/loopwright/interact"
@@ -20,14 +19,11 @@ import (
 
 // PairOptions are the inputs of the pair command.
 type PairOptions struct {
-	F         *cli.Factory
-	Model     string
-	GainsFile string
-	Format    string
-	Scaling   string
-	Jacobian  string
-	Top       int
-	Flags     modelarg.Flags
+	F       *cli.Factory
+	Format  string
+	Scaling string
+	Top     int
+	Source  pipeline.GainFlags
 }
 
 // NewCmdPair returns the pair command. runF replaces the run function in tests.
@@ -57,7 +53,7 @@ it under local codes and licensed engineering practice.`,
 		Args: cobra.MaximumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			if len(args) == 1 {
-				opts.Model = args[0]
+				opts.Source.Model = args[0]
 			}
 			if runF != nil {
 				return runF(opts)
@@ -65,12 +61,10 @@ it under local codes and licensed engineering practice.`,
 			return pairRun(opts)
 		},
 	}
-	cmd.Flags().StringVar(&opts.GainsFile, "gains", "", "analyse a measured gain matrix (CSV or YAML) instead of a MODEL")
 	cmd.Flags().StringVar(&opts.Format, "format", "table", "output format: table, json or csv")
 	cmd.Flags().StringVar(&opts.Scaling, "scaling", "auto", "gain scaling for singular values and condition numbers: span, nominal, none, or auto (span when every signal has one)")
-	cmd.Flags().StringVar(&opts.Jacobian, "jacobian", "ad", "Jacobian for Newton: ad or fd")
 	cmd.Flags().IntVar(&opts.Top, "top", 5, "how many ranked pairings to show (0 for all)")
-	opts.Flags.Register(cmd)
+	opts.Source.Register(cmd)
 	return cmd
 }
 
@@ -79,13 +73,10 @@ func pairRun(opts *PairOptions) error {
 	if err != nil {
 		return &cli.FlagError{Err: err}
 	}
-	if opts.Jacobian != "ad" && opts.Jacobian != "fd" {
-		return cli.FlagErrorf("--jacobian %q: use ad or fd", opts.Jacobian)
-	}
 	if opts.Top < 0 {
 		return cli.FlagErrorf("--top %d: give a positive number, or 0 for all", opts.Top)
 	}
-	src, err := pipeline.LoadGains(opts.F.Context, opts.F, opts.Model, &opts.Flags, opts.GainsFile, &pipeline.Options{FD: opts.Jacobian == "fd"})
+	src, err := opts.Source.Load(opts.F)
 	if err != nil {
 		return err
 	}

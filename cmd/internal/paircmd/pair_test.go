@@ -36,7 +36,7 @@ func TestFlags(t *testing.T) {
 		if tt.wantErr {
 			continue
 		}
-		if got.Model != tt.model || got.GainsFile != tt.gains || got.Format != tt.format || got.Top != tt.top || len(got.Flags.Constants) != tt.consts {
+		if got.Source.Model != tt.model || got.Source.GainsFile != tt.gains || got.Format != tt.format || got.Top != tt.top || len(got.Source.Flags.Constants) != tt.consts {
 			t.Errorf("%v: options %+v", tt.args, got)
 		}
 	}

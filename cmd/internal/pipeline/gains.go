@@ -3,11 +3,51 @@ package pipeline
 import (
 	"context"
 
+	"github.com/spf13/cobra"
+
 	"github.com/loopwright/loopwright/cmd/internal/cli"
 	"github.com/loopwright/loopwright/cmd/internal/modelarg"
 	"github.com/loopwright/loopwright/interact"
 	"github.com/loopwright/loopwright/interact/gainfile"
 )
+
+// RegisterJacobian adds --jacobian (ad or fd) to cmd.
+func RegisterJacobian(cmd *cobra.Command, p *string) {
+	cmd.Flags().StringVar(p, "jacobian", "ad", "Jacobian for Newton: ad (exact, automatic differentiation) or fd (central differences, a cross-check)")
+}
+
+// OptionsFor checks a --jacobian value and returns the pipeline options.
+func OptionsFor(jacobian string) (*Options, error) {
+	if jacobian != "ad" && jacobian != "fd" {
+		return nil, cli.FlagErrorf("--jacobian %q: use ad or fd", jacobian)
+	}
+	return &Options{FD: jacobian == "fd"}, nil
+}
+
+// GainFlags are the flags of the commands that analyse gains: a MODEL
+// argument with the model flags, or a measured gain file.
+type GainFlags struct {
+	Model     string // the MODEL argument, "" when --gains is used
+	GainsFile string
+	Jacobian  string
+	Flags     modelarg.Flags
+}
+
+// Register adds --gains, --jacobian and the model flags to cmd.
+func (g *GainFlags) Register(cmd *cobra.Command) {
+	cmd.Flags().StringVar(&g.GainsFile, "gains", "", "use a measured gain matrix (CSV or YAML) instead of a MODEL")
+	RegisterJacobian(cmd, &g.Jacobian)
+	g.Flags.Register(cmd)
+}
+
+// Load returns the gains the flags name.
+func (g *GainFlags) Load(f *cli.Factory) (*GainSource, error) {
+	opts, err := OptionsFor(g.Jacobian)
+	if err != nil {
+		return nil, err
+	}
+	return LoadGains(f.Context, f, g.Model, &g.Flags, g.GainsFile, opts)
+}
 
 // GainSource is where a gain set came from: a model at its operating point
 // (Point set) or a measured gain file (Point nil).

@@ -50,7 +50,7 @@ equations with the largest residuals.`,
 		},
 	}
 	cmd.Flags().StringVar(&opts.Format, "format", "table", "output format: table, json or csv")
-	cmd.Flags().StringVar(&opts.Jacobian, "jacobian", "ad", "Jacobian for Newton: ad (exact, automatic differentiation) or fd (central differences, a cross-check)")
+	pipeline.RegisterJacobian(cmd, &opts.Jacobian)
 	cmd.Flags().BoolVar(&opts.Trace, "trace", false, "print every Newton iteration on stderr")
 	opts.Flags.Register(cmd)
 	return cmd
@@ -84,14 +84,15 @@ func solveRun(opts *SolveOptions) error {
 	if err != nil {
 		return &cli.FlagError{Err: err}
 	}
-	if opts.Jacobian != "ad" && opts.Jacobian != "fd" {
-		return cli.FlagErrorf("--jacobian %q: use ad or fd", opts.Jacobian)
+	popts, err := pipeline.OptionsFor(opts.Jacobian)
+	if err != nil {
+		return err
 	}
 	sys, err := opts.Flags.Load(opts.F, opts.Model)
 	if err != nil {
 		return err
 	}
-	popts := &pipeline.Options{FD: opts.Jacobian == "fd", Solve: &solve.Options{}}
+	popts.Solve = &solve.Options{}
 	if opts.Trace {
 		popts.Solve.Recorder = solve.Printer(opts.F.IO.ErrOut)
 	}
