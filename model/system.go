@@ -232,8 +232,6 @@ const (
 	FnPow   Func = "pow" // pow(a, b) = a^b
 )
 
-// Funcs lists the callable functions, for messages.
-var Funcs = []Func{FnExp, FnLog, FnLog10, FnSqrt, FnAbs, FnMin, FnMax, FnPow}
 
 // Call is Fn(Args...).
 type Call struct {
