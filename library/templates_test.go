@@ -418,6 +418,9 @@ func TestColumnAGains(t *testing.T) {
 	if l := rga.At(0, 0); math.Abs(l-35.94) > 0.05*35.94 {
 		t.Errorf("lambda11 = %.2f, checkvalues §2d [R] 35.94 (5 %%)", l)
 	}
+	if l := rga.At(0, 0); math.Abs(l-35.1) > 0.05*35.1 {
+		t.Errorf("lambda11 = %.2f, published 35.1 (SP Ex. 3.11 eq. 3.73, checkvalues §2c) within 5 %%", l)
+	}
 	kd := pt.gains(t, sys.Disturbances)
 	wantD := [][]float64{{7.879, 8.813}, {11.721, 11.188}}
 	for i := range 2 {
