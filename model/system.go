@@ -232,7 +232,6 @@ const (
 	FnPow   Func = "pow" // pow(a, b) = a^b
 )
 
-
 // Call is Fn(Args...).
 type Call struct {
 	Pos  Pos // the function name
