@@ -73,6 +73,13 @@ type Options struct {
 	MaxPairings int
 
 	Thresholds Thresholds
+
+	// Brief leaves out the words: each PairingResult's Reasons and Label,
+	// and the Analysis's Method, stay empty. Every number, verdict and the
+	// ranking are those of the full analysis; notes that hold for every
+	// pairing are kept, since they decide verdicts. It is for callers that
+	// analyse many points and keep only the numbers (an envelope sweep).
+	Brief bool
 }
 
 // Analysis is the interaction analysis of a gain set at one operating point.
@@ -179,31 +186,38 @@ func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
 	}
 	n := len(rows)
 
+	// One LU of K gives the RGA, det K and (with disturbances) K⁻¹Kd; one
+	// SVD gives the singular values and the singularity test of the
+	// minimised condition number.
 	a.RGA = new(mat.Dense)
-	if err := RGA(a.RGA, a.K); err != nil {
+	var kinv mat.Dense
+	det, err := rgaDet(a.RGA, &kinv, a.K)
+	if err != nil {
 		return nil, &SingularError{What: "the gain matrix K (" + strings.Join(names(a.Outputs), ", ") + " by " + strings.Join(names(a.Inputs), ", ") + ")", Cond: float64(asCondition(err))}
 	}
 	zeroRoundoff(a.RGA)
 	a.Sensitivity = ElementSensitivity(a.RGA)
-	a.Det = mat.Det(a.K)
+	a.Det = det
 	if a.SVD, err = SVD(a.K); err != nil {
 		return nil, err
 	}
-	if a.MinCond, a.Dl, a.Dr, err = MinConditionNumber(a.K); err != nil {
+	if a.MinCond, a.Dl, a.Dr, err = minConditionNumber(a.K, a.SVD); err != nil {
 		return nil, err
 	}
 	if a.MinCond > th.CondHigh {
 		a.Notes = append(a.Notes, fmt.Sprintf("K is ill-conditioned whatever the scaling: minimised condition number γ* = %s > %s. Some output combinations need input moves %s times larger than others, and the pairing conclusions are sensitive to errors in the gains.", fmtNum(a.MinCond), fmtNum(th.CondHigh), fmtNum(a.MinCond)))
 	}
 
-	sc := newScreener(a, th)
+	sc := newScreener(a, th, &kinv, opts.Brief)
 	maxOut := opts.MaxPairings
 	if maxOut == 0 {
 		maxOut = 10
 	}
 	var cands []candidate
 	if n <= MaxEnumerate {
-		a.Method = fmt.Sprintf("all %d pairings enumerated", factorial(n))
+		if !opts.Brief {
+			a.Method = fmt.Sprintf("all %d pairings enumerated", factorial(n))
+		}
 		for p := range Pairings(n) {
 			cands = append(cands, sc.screen(p))
 		}
@@ -221,7 +235,9 @@ func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
 			}
 		}
 		best := BestPairings(cost, kbest)
-		a.Method = fmt.Sprintf("%d! pairings are too many to enumerate: screened the %d best by the RGA number (Murty's ranking of assignments), then applied the other screens to those", n, len(best))
+		if !opts.Brief {
+			a.Method = fmt.Sprintf("%d! pairings are too many to enumerate: screened the %d best by the RGA number (Murty's ranking of assignments), then applied the other screens to those", n, len(best))
+		}
 		for _, p := range best {
 			cands = append(cands, sc.screen(p))
 		}
@@ -284,22 +300,22 @@ type screener struct {
 	det    float64
 	sumAbs float64    // Σ|λ_ij|
 	kinvKd *mat.Dense // K⁻¹Kd, nil without disturbances
+	words  bool       // build reasons and labels (not Options.Brief)
 	outN   []string
 	inN    []string
 	distN  []string
 }
 
-func newScreener(a *Analysis, th Thresholds) *screener {
+// newScreener takes kinv = K⁻¹, which Analyze has at hand.
+func newScreener(a *Analysis, th Thresholds, kinv *mat.Dense, brief bool) *screener {
 	n, _ := a.K.Dims()
-	s := &screener{a: a, th: th, n: n, det: a.Det, outN: names(a.Outputs), inN: names(a.Inputs), distN: names(a.Disturbances)}
+	s := &screener{a: a, th: th, n: n, det: a.Det, words: !brief, outN: names(a.Outputs), inN: names(a.Inputs), distN: names(a.Disturbances)}
 	for _, v := range a.RGA.RawMatrix().Data {
 		s.sumAbs += math.Abs(v)
 	}
 	if a.Kd != nil {
-		var inv mat.Dense
-		inverse(&inv, a.K)
 		s.kinvKd = new(mat.Dense)
-		s.kinvKd.Mul(&inv, a.Kd)
+		s.kinvKd.Mul(kinv, a.Kd)
 	}
 	return s
 }
@@ -345,38 +361,68 @@ func (s *screener) rdgCautions(b *mat.Dense) int {
 	return n
 }
 
-// detail builds the full result with reasons and integrity.
+// detail builds the full result with integrity, and with reasons and label
+// unless the analysis is brief. The verdict and score count the rejections
+// and cautions, so they do not depend on the words.
 func (s *screener) detail(p Pairing) PairingResult {
-	a, th := s.a, s.th
-	r := PairingResult{Pairs: slices.Clone(p), Label: p.Label(s.outN, s.inN), Lambdas: make([]float64, s.n)}
+	a, th, words := s.a, s.th, s.words
+	r := PairingResult{Pairs: slices.Clone(p), Lambdas: make([]float64, s.n)}
+	if words {
+		r.Label = p.Label(s.outN, s.inN)
+	}
 	var rejects, cautions, good []string
+	nRejects, nCautions := 0, 0
 	allGood := true
 	for i, j := range p {
 		l := a.RGA.At(i, j)
 		r.Lambdas[i] = l
-		pair := fmt.Sprintf("%s paired with %s", s.outN[i], s.inN[j])
+		var pair string
+		if words {
+			pair = fmt.Sprintf("%s paired with %s", s.outN[i], s.inN[j])
+		}
 		switch {
 		case a.K.At(i, j) == 0:
-			rejects = append(rejects, fmt.Sprintf("%s: the steady-state gain is zero, so this input cannot hold this output.", pair))
+			nRejects++
+			if words {
+				rejects = append(rejects, fmt.Sprintf("%s: the steady-state gain is zero, so this input cannot hold this output.", pair))
+			}
 		case l == 0:
-			rejects = append(rejects, fmt.Sprintf("%s has λ = 0 (to rounding): the input's effect on this output vanishes once the other loops close, so this pair cannot form a loop.", pair))
+			nRejects++
+			if words {
+				rejects = append(rejects, fmt.Sprintf("%s has λ = 0 (to rounding): the input's effect on this output vanishes once the other loops close, so this pair cannot form a loop.", pair))
+			}
 		case l < 0:
-			rejects = append(rejects, fmt.Sprintf("%s has λ = %s < 0: the loop's gain changes sign when the other loops close, so a controller tuned with them open drives it the wrong way.", pair, fmtNum(l)))
+			nRejects++
+			if words {
+				rejects = append(rejects, fmt.Sprintf("%s has λ = %s < 0: the loop's gain changes sign when the other loops close, so a controller tuned with them open drives it the wrong way.", pair, fmtNum(l)))
+			}
 		case l < th.LambdaLow:
-			cautions = append(cautions, fmt.Sprintf("%s has λ = %s < %s: the loop's gain grows about %s times when the other loops close; interaction is strong and the loop needs detuning.", pair, fmtNum(l), fmtNum(th.LambdaLow), fmtNum(1/l)))
+			nCautions++
+			if words {
+				cautions = append(cautions, fmt.Sprintf("%s has λ = %s < %s: the loop's gain grows about %s times when the other loops close; interaction is strong and the loop needs detuning.", pair, fmtNum(l), fmtNum(th.LambdaLow), fmtNum(1/l)))
+			}
 		case l > th.LambdaHigh:
-			cautions = append(cautions, fmt.Sprintf("%s has λ = %s > %s: the loop's gain falls to 1/%s of its open-loop value when the other loops close, and an error of 1/λ = %s%% in this gain alone would make K singular.", pair, fmtNum(l), fmtNum(th.LambdaHigh), fmtNum(l), fmtNum(100/l)))
+			nCautions++
+			if words {
+				cautions = append(cautions, fmt.Sprintf("%s has λ = %s > %s: the loop's gain falls to 1/%s of its open-loop value when the other loops close, and an error of 1/λ = %s%% in this gain alone would make K singular.", pair, fmtNum(l), fmtNum(th.LambdaHigh), fmtNum(l), fmtNum(100/l)))
+			}
 		}
 		inBand := l >= th.LambdaLow && l <= th.LambdaHigh && a.K.At(i, j) != 0
 		switch {
 		case l >= th.GoodLow && l <= th.GoodHigh:
-			good = append(good, fmt.Sprintf("%s has λ = %s, close to 1.", pair, fmtNum(l)))
+			if words {
+				good = append(good, fmt.Sprintf("%s has λ = %s, close to 1.", pair, fmtNum(l)))
+			}
 		case inBand && l < 1:
 			allGood = false
-			good = append(good, fmt.Sprintf("%s has λ = %s: acceptable, but the loop's gain grows about %s times when the other loops close; tune it with them closed.", pair, fmtNum(l), fmtNum(1/l)))
+			if words {
+				good = append(good, fmt.Sprintf("%s has λ = %s: acceptable, but the loop's gain grows about %s times when the other loops close; tune it with them closed.", pair, fmtNum(l), fmtNum(1/l)))
+			}
 		case inBand:
 			allGood = false
-			good = append(good, fmt.Sprintf("%s has λ = %s: acceptable, but the loop's gain falls to 1/%s of its open-loop value when the other loops close; tune it with them closed.", pair, fmtNum(l), fmtNum(l)))
+			if words {
+				good = append(good, fmt.Sprintf("%s has λ = %s: acceptable, but the loop's gain falls to 1/%s of its open-loop value when the other loops close; tune it with them closed.", pair, fmtNum(l), fmtNum(l)))
+			}
 		default:
 			allGood = false
 		}
@@ -392,9 +438,15 @@ func (s *screener) detail(p Pairing) PairingResult {
 		case math.IsNaN(r.Niederlinski):
 			// a zero paired gain, already rejected above
 		case r.Niederlinski < 0:
-			rejects = append(rejects, fmt.Sprintf("Niederlinski index NI = %s < 0: with integral action in every loop the closed loop is unstable whatever the tuning.", fmtNum(r.Niederlinski)))
+			nRejects++
+			if words {
+				rejects = append(rejects, fmt.Sprintf("Niederlinski index NI = %s < 0: with integral action in every loop the closed loop is unstable whatever the tuning.", fmtNum(r.Niederlinski)))
+			}
 		case r.Niederlinski < th.NISmall:
-			cautions = append(cautions, fmt.Sprintf("Niederlinski index NI = %s is positive but below %s: the paired gains explain little of det K, and a modest gain error could flip NI negative.", fmtNum(r.Niederlinski), fmtNum(th.NISmall)))
+			nCautions++
+			if words {
+				cautions = append(cautions, fmt.Sprintf("Niederlinski index NI = %s is positive but below %s: the paired gains explain little of det K, and a modest gain error could flip NI negative.", fmtNum(r.Niederlinski), fmtNum(th.NISmall)))
+			}
 		}
 	}
 	if a.Kd != nil {
@@ -403,31 +455,40 @@ func (s *screener) detail(p Pairing) PairingResult {
 		for i := 0; i < s.n; i++ {
 			for d := 0; d < nd; d++ {
 				if b := r.RDG.At(i, d); math.Abs(b) > th.RDGHigh {
-					cautions = append(cautions, fmt.Sprintf("Disturbance %s: relative disturbance gain β = %s on %s (|β| > %s): with the other loops closed its effect on %s is %s times the open-loop effect, so that loop must reject much more than its open-loop gain suggests.", s.distN[d], fmtNum(b), s.outN[i], fmtNum(th.RDGHigh), s.outN[i], fmtNum(math.Abs(b))))
+					nCautions++
+					if words {
+						cautions = append(cautions, fmt.Sprintf("Disturbance %s: relative disturbance gain β = %s on %s (|β| > %s): with the other loops closed its effect on %s is %s times the open-loop effect, so that loop must reject much more than its open-loop gain suggests.", s.distN[d], fmtNum(b), s.outN[i], fmtNum(th.RDGHigh), s.outN[i], fmtNum(math.Abs(b))))
+					}
 				}
 			}
 		}
 	}
-	if len(rejects) == 0 && s.n >= 3 {
+	if nRejects == 0 && s.n >= 3 {
 		for _, chk := range Integrity(a.K, p) {
 			if chk.Fails {
 				r.Integrity = append(r.Integrity, chk)
 			}
 		}
 		if len(r.Integrity) > 0 {
-			cautions = append(cautions, s.integrityReason(p, r.Integrity))
+			nCautions++
+			if words {
+				cautions = append(cautions, s.integrityReason(p, r.Integrity))
+			}
 		}
 	}
-	r.Score = r.RGANumber + 2*float64(len(cautions))
+	r.Score = r.RGANumber + 2*float64(nCautions)
 	switch {
-	case len(rejects) > 0:
+	case nRejects > 0:
 		r.Verdict = Rejected
-	case len(cautions) > 0 || len(a.Notes) > 0:
+	case nCautions > 0 || len(a.Notes) > 0:
 		r.Verdict = Cautioned
 	case allGood:
 		r.Verdict = Recommended
 	default:
 		r.Verdict = Acceptable
+	}
+	if !words {
+		return r
 	}
 	r.Reasons = append(append(append(rejects, cautions...), a.Notes...), good...)
 	if s.n >= 3 && r.Niederlinski > 0 && len(rejects) == 0 {

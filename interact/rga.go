@@ -28,34 +28,51 @@ func RGA(dst *mat.Dense, k mat.Matrix) error {
 	if r != c {
 		panic(mat.ErrSquare)
 	}
-	reuseAs(dst, r, c)
 	var inv mat.Dense
-	cond := inverse(&inv, k)
+	_, err := rgaDet(dst, &inv, k)
+	return err
+}
+
+// rgaDet is RGA that also returns det k and leaves K⁻¹ in inv, all from one
+// LU factorisation (det is NaN and inv unset when k is exactly singular).
+func rgaDet(dst, inv *mat.Dense, k mat.Matrix) (det float64, err error) {
+	r, c := k.Dims()
+	reuseAs(dst, r, c)
+	cond, det := inverseDet(inv, k)
 	if math.IsInf(cond, 1) {
 		for i := 0; i < r; i++ {
 			for j := 0; j < c; j++ {
 				dst.Set(i, j, math.NaN())
 			}
 		}
-		return mat.Condition(cond)
+		return det, mat.Condition(cond)
 	}
 	dst.MulElem(k, inv.T())
 	if cond > ConditionLimit {
-		return mat.Condition(cond)
+		return det, mat.Condition(cond)
 	}
-	return nil
+	return det, nil
 }
 
 // inverse stores the inverse of the square k in dst from one LU
 // factorisation and returns k's condition number (1-norm estimate); +Inf
 // when k is exactly singular, in which case dst is left unset.
 func inverse(dst *mat.Dense, k mat.Matrix) float64 {
+	cond, _ := inverseDet(dst, k)
+	return cond
+}
+
+// inverseDet is inverse that also returns det k from the same
+// factorisation, computed exactly as mat.Det computes it.
+func inverseDet(dst *mat.Dense, k mat.Matrix) (cond, det float64) {
 	n, _ := k.Dims()
 	var lu mat.LU
 	lu.Factorize(k)
-	cond := lu.Cond()
+	logDet, sign := lu.LogDet() // as mat.Det does it
+	det = math.Exp(logDet) * sign
+	cond = lu.Cond()
 	if math.IsInf(cond, 1) || math.IsNaN(cond) {
-		return math.Inf(1)
+		return math.Inf(1), det
 	}
 	dst.Reset()
 	id := mat.NewDiagDense(n, nil)
@@ -64,10 +81,10 @@ func inverse(dst *mat.Dense, k mat.Matrix) float64 {
 	}
 	if err := lu.SolveTo(dst, false, id); err != nil {
 		if c := asCondition(err); math.IsInf(float64(c), 1) {
-			return math.Inf(1)
+			return math.Inf(1), det
 		}
 	}
-	return cond
+	return cond, det
 }
 
 // RGAPinv stores in dst the relative gain array of a non-square matrix k

@@ -59,9 +59,18 @@ func MinConditionNumber(k mat.Matrix) (gamma float64, dl, dr []float64, err erro
 		panic(mat.ErrSquare)
 	}
 	kd := mat.DenseCopyOf(k)
-	if s, err := SVD(kd); err != nil {
+	s, err := SVD(kd)
+	if err != nil {
 		return 0, nil, nil, err
-	} else if s.Values[n-1] == 0 || s.Cond > 1/0x1p-52 {
+	}
+	return minConditionNumber(kd, s)
+}
+
+// minConditionNumber is MinConditionNumber given the SVD s of kd (only
+// read).
+func minConditionNumber(kd *mat.Dense, s *SVDResult) (gamma float64, dl, dr []float64, err error) {
+	n, _ := kd.Dims()
+	if s.Values[n-1] == 0 || s.Cond > 1/0x1p-52 {
 		return 0, nil, nil, &SingularError{What: "K", Cond: s.Cond}
 	}
 	if n == 1 {

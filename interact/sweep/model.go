@@ -229,6 +229,8 @@ func (m *modelRun) newWorker() *modelWorker {
 		w.aopts = *m.opts.Analysis
 	}
 	w.aopts.MaxPairings = -1
+	// The records keep numbers and verdicts only: skip the words.
+	w.aopts.Brief = true
 	w.gs = interact.GainSet{Outputs: m.signalsO, Inputs: m.signalsI, Source: "model"}
 	return w
 }
@@ -274,13 +276,20 @@ func (w *modelWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) (
 	}
 	rec.NI = make([]float64, len(w.m.interest))
 	rec.Pass = make([]bool, len(w.m.interest))
+	// Unscaled, the analysis's K is k itself and its NI of a pairing is
+	// Niederlinski(k, pr) to the bit (det from the same LU): reuse it.
+	unscaled := w.aopts.Scaling == interact.ScaleNone
 	for q, pr := range w.m.interest {
-		rec.NI[q] = interact.Niederlinski(k, pr)
+		found := false
 		for _, r := range a.Pairings {
 			if slices.Equal(r.Pairs, pr) {
 				rec.Pass[q] = passes(r.Verdict)
+				rec.NI[q], found = r.Niederlinski, true
 				break
 			}
+		}
+		if !found || !unscaled {
+			rec.NI[q] = interact.Niederlinski(k, pr)
 		}
 	}
 	return x, nil
