@@ -154,6 +154,30 @@ type part struct {
 // *NotConverged (or the context's error when it was cancelled) and Result
 // holds the best point reached. An invalid Problem (wrong lengths) panics.
 func Newton(ctx context.Context, prob *Problem, x0 []float64, opts *Options) (*Result, error) {
+	return NewSolver(prob).Solve(ctx, x0, opts)
+}
+
+// Solver solves one Problem many times, from different starting points or
+// with different values behind its functions (the points of an envelope
+// sweep, say). It keeps what depends only on the Jacobian's pattern between
+// solves: the block decomposition and the blocks' sub-patterns. Every Solve
+// returns exactly what Newton returns for the same call. A Solver is not for
+// concurrent use; give each goroutine its own.
+type Solver struct {
+	prob   *Problem
+	st     *structure.Structure
+	full   *part
+	blocks []*part // by block, made when first needed
+}
+
+// NewSolver returns a Solver for prob. The Problem's pattern (N, RowPtr,
+// ColIdx) must not change while the Solver is in use; its functions and
+// bounds may.
+func NewSolver(prob *Problem) *Solver { return &Solver{prob: prob} }
+
+// Solve is Newton(ctx, prob, x0, opts) for the Solver's Problem.
+func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Result, error) {
+	prob := sv.prob
 	n := prob.N
 	if len(x0) != n || len(prob.RowPtr) != n+1 || prob.Residual == nil || prob.ResidualJacobian == nil {
 		panic("solve: Newton: Problem and x0 do not fit (N, RowPtr, x0, Residual, ResidualJacobian)")
@@ -172,11 +196,22 @@ func Newton(ctx context.Context, prob *Problem, x0 []float64, opts *Options) (*R
 
 	// Structure first: a structurally singular system needs a different
 	// specification, not a better guess.
-	eqs := make([][]int, n)
-	for i := range eqs {
-		eqs[i] = prob.ColIdx[prob.RowPtr[i]:prob.RowPtr[i+1]]
+	if sv.st == nil {
+		eqs := make([][]int, n)
+		for i := range eqs {
+			eqs[i] = prob.ColIdx[prob.RowPtr[i]:prob.RowPtr[i+1]]
+		}
+		sv.st = structure.Analyze(eqs, n)
+		sv.blocks = make([]*part, len(sv.st.Blocks))
 	}
-	st := structure.Analyze(eqs, n)
+	st := sv.st
+	// Every solve factors afresh (new pivots) at its first iteration, as a
+	// new solver would.
+	for _, pt := range sv.blocks {
+		if pt != nil {
+			pt.lu = nil
+		}
+	}
 	res.Blocks = len(st.Blocks)
 	if st.Singular() {
 		return s.structuralFailure(res, st)
@@ -189,7 +224,11 @@ func Newton(ctx context.Context, prob *Problem, x0 []float64, opts *Options) (*R
 	}
 	s.setScales()
 
-	full := s.newPart(-1, seq(n), seq(n))
+	if sv.full == nil {
+		sv.full = s.newPart(-1, seq(n), seq(n))
+	}
+	full := sv.full
+	full.lu = nil
 	var reasons []string
 	best := slices.Clone(x)
 	bestNorm := s.normOf(s.f0)
@@ -208,7 +247,10 @@ func Newton(ctx context.Context, prob *Problem, x0 []float64, opts *Options) (*R
 		y := slices.Clone(x)
 		var out outcome
 		for b, blk := range st.Blocks {
-			out = s.run(s.newPart(b, blk.Equations, blk.Unknowns), y, s.opt.FTol)
+			if sv.blocks[b] == nil {
+				sv.blocks[b] = s.newPart(b, blk.Equations, blk.Unknowns)
+			}
+			out = s.run(sv.blocks[b], y, s.opt.FTol)
 			if !out.ok() {
 				out.reason = fmt.Sprintf("block %d of %d (%s): %s", b+1, len(st.Blocks), s.eqName(blk.Equations[0]), out.reason)
 				break

@@ -195,7 +195,8 @@ type modelWorker struct {
 	m    *modelRun
 	eval *jacobian.Eval
 	prob *solve.Problem
-	p    []float64 // the parameters of the point being solved
+	sol  *solve.Solver // keeps prob's block decomposition between points
+	p    []float64     // the parameters of the point being solved
 
 	jac    *jacobian.Sparse
 	lu     *sparse.LU
@@ -225,6 +226,7 @@ func (m *modelRun) newWorker() *modelWorker {
 		},
 		Lower: m.lower, Upper: m.upper, VarNames: m.names, EqNames: m.eqNames,
 	}
+	w.sol = solve.NewSolver(w.prob)
 	if m.opts.Analysis != nil {
 		w.aopts = *m.opts.Analysis
 	}
@@ -238,7 +240,7 @@ func (m *modelRun) newWorker() *modelWorker {
 // Point implements Worker.
 func (w *modelWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) ([]float64, error) {
 	w.p = p
-	res, err := solve.Newton(ctx, w.prob, x0, w.m.opts.Solver)
+	res, err := w.sol.Solve(ctx, x0, w.m.opts.Solver)
 	if res != nil {
 		rec.Iterations = res.Iterations
 	}

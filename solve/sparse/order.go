@@ -1,8 +1,9 @@
 package sparse
 
 import (
+	"cmp"
 	"math"
-	"sort"
+	"slices"
 
 	"github.com/loopwright/loopwright/solve/structure"
 )
@@ -46,12 +47,13 @@ func order(a *CSR, how Ordering) (q, pref []int) {
 		for k := range row {
 			row[k] = lo + k // positions first, columns after sorting
 		}
-		sort.Slice(row, func(x, y int) bool {
-			vx, vy := math.Abs(a.Val[row[x]]), math.Abs(a.Val[row[y]])
-			if vx != vy {
-				return vx > vy
+		// A total order (ties by position; a NaN last), so any sort gives
+		// the same row. slices.SortFunc allocates nothing.
+		slices.SortFunc(row, func(x, y int) int {
+			if r := cmp.Compare(math.Abs(a.Val[y]), math.Abs(a.Val[x])); r != 0 {
+				return r
 			}
-			return row[x] < row[y]
+			return cmp.Compare(x, y)
 		})
 		for k, p := range row {
 			row[k] = a.ColIdx[p]
@@ -124,11 +126,11 @@ func order(a *CSR, how Ordering) (q, pref []int) {
 					nb = append(nb, c2)
 				}
 			}
-			sort.Slice(nb, func(i, j int) bool {
-				if deg[nb[i]] != deg[nb[j]] {
-					return deg[nb[i]] < deg[nb[j]]
+			slices.SortFunc(nb, func(x, y int) int {
+				if deg[x] != deg[y] {
+					return cmp.Compare(deg[x], deg[y])
 				}
-				return nb[i] < nb[j]
+				return cmp.Compare(x, y)
 			})
 			out = out[:len(out)+len(nb)]
 		}
