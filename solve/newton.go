@@ -36,6 +36,9 @@ type Problem struct {
 	Typical []float64
 
 	VarNames, EqNames []string // for messages; nil gives "unknown 3", "equation 3"
+	// FormatValue prints a value of unknown j for messages, in the unit
+	// the user declared; nil prints the SI number.
+	FormatValue func(j int, v float64) string
 }
 
 // Options says how hard to try. A nil *Options or a zero field means the
@@ -550,7 +553,7 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 					side, b = "upper", s.hi[blocking]
 				}
 				return outcome{status: HitBound, bad: blocking,
-					reason: fmt.Sprintf("hit bound: unknown %s sits on its %s bound %g and the Newton step points beyond it", s.varName(blocking), side, b)}
+					reason: fmt.Sprintf("hit bound: unknown %s sits on its %s bound %s and the Newton step points beyond it", s.varName(blocking), side, s.value(blocking, b))}
 			}
 			alpha, ok = s.lineSearch(pt, x, d, amax, phi)
 			dc = d
@@ -783,6 +786,14 @@ func names(idx []int, name func(int) string) []string {
 		out[i] = name(k)
 	}
 	return out
+}
+
+// value formats a value of unknown j for messages.
+func (s *solver) value(j int, v float64) string {
+	if s.prob.FormatValue != nil && j >= 0 {
+		return s.prob.FormatValue(j, v)
+	}
+	return fmt.Sprintf("%g", v)
 }
 
 func (s *solver) varName(j int) string {

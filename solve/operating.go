@@ -55,6 +55,13 @@ func ProblemFor(prog *jacobian.Program, sys *model.System, p []float64) *Problem
 	for _, e := range sys.Equations {
 		prob.EqNames = append(prob.EqNames, e.Name)
 	}
+	prob.FormatValue = func(j int, v float64) string {
+		u := sys.Unknowns[j].Unit
+		if u.Text == "" {
+			return fmt.Sprintf("%g", v)
+		}
+		return fmt.Sprintf("%g %s", u.FromSI(v), u.Text)
+	}
 	return prob
 }
 
