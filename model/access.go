@@ -46,45 +46,45 @@ func Walk(n Node, f func(Node)) {
 	}
 }
 
+// walkLeaves calls leaf for every Const, Var and Param under n, visiting a
+// subtree shared by pointer only once per seen map.
+func walkLeaves(n Node, seen map[Node]bool, leaf func(Node)) {
+	switch n := n.(type) {
+	case *Const, *Var, *Param:
+		leaf(n)
+		return
+	}
+	if seen[n] {
+		return
+	}
+	seen[n] = true
+	switch n := n.(type) {
+	case *Neg:
+		walkLeaves(n.X, seen, leaf)
+	case *Binary:
+		walkLeaves(n.L, seen, leaf)
+		walkLeaves(n.R, seen, leaf)
+	case *Call:
+		for _, a := range n.Args {
+			walkLeaves(a, seen, leaf)
+		}
+	default:
+		panic(fmt.Sprintf("model: unknown node type %T", n))
+	}
+}
+
 // collect returns, for each equation, the sorted distinct indices that pick
 // returns for the leaves of its residual. Shared subtrees are visited once
 // per equation.
 func (s *System) collect(pick func(Node) (int, bool)) [][]int {
 	out := make([][]int, len(s.Equations))
 	for q, eq := range s.Equations {
-		seen := map[Node]bool{}
 		set := map[int]bool{}
-		var visit func(Node)
-		visit = func(n Node) {
+		walkLeaves(eq.Residual, map[Node]bool{}, func(n Node) {
 			if i, ok := pick(n); ok {
 				set[i] = true
-				return
 			}
-			switch n := n.(type) {
-			case *Const, *Var, *Param:
-			case *Neg:
-				if !seen[n] {
-					seen[n] = true
-					visit(n.X)
-				}
-			case *Binary:
-				if !seen[n] {
-					seen[n] = true
-					visit(n.L)
-					visit(n.R)
-				}
-			case *Call:
-				if !seen[n] {
-					seen[n] = true
-					for _, a := range n.Args {
-						visit(a)
-					}
-				}
-			default:
-				panic(fmt.Sprintf("model: unknown node type %T", n))
-			}
-		}
-		visit(eq.Residual)
+		})
 		row := make([]int, 0, len(set))
 		for i := range set {
 			row = append(row, i)

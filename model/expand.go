@@ -1046,34 +1046,13 @@ func (e *expander) checksPass() {
 func (e *expander) warnings() {
 	used := make([]bool, len(e.sys.Params))
 	seen := map[Node]bool{}
-	var visit func(n Node)
-	visit = func(n Node) {
-		switch n := n.(type) {
-		case *Param:
-			used[n.Index] = true
-		case *Const, *Var:
-		case *Neg:
-			if !seen[n] {
-				seen[n] = true
-				visit(n.X)
-			}
-		case *Binary:
-			if !seen[n] {
-				seen[n] = true
-				visit(n.L)
-				visit(n.R)
-			}
-		case *Call:
-			if !seen[n] {
-				seen[n] = true
-				for _, a := range n.Args {
-					visit(a)
-				}
-			}
+	markUsed := func(n Node) {
+		if p, ok := n.(*Param); ok {
+			used[p.Index] = true
 		}
 	}
 	for _, q := range e.sys.Equations {
-		visit(q.Residual)
+		walkLeaves(q.Residual, seen, markUsed)
 	}
 	for _, fam := range e.famOrder {
 		if fam.unknown {
