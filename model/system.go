@@ -48,7 +48,7 @@ type System struct {
 	Envelope []Axis // default sweep axes, in file order
 
 	Constants map[string]float64 // the constants as expanded (after overrides)
-	Warnings  []Warning          // things check reports without failing
+	Warnings  []Warning          // things check reports without failing, in file order
 
 	Checks []Check // range checks to evaluate after solving, in file order
 

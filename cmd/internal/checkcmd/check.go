@@ -147,7 +147,7 @@ func Build(sys *model.System) *Report {
 		rep.UnderDetermined = append(rep.UnderDetermined, sys.Unknowns[u].Name)
 	}
 	rep.Suggestions = suggestions(rep, st)
-	for _, w := range modelarg.SortedWarnings(sys) {
+	for _, w := range sys.Warnings {
 		rep.Warnings = append(rep.Warnings, WarningJSON{Pos: w.Pos.String(), Message: w.Msg})
 	}
 	for _, w := range unmovableOutputs(sys, st) {

@@ -5,7 +5,6 @@ package modelarg
 
 import (
 	"fmt"
-	"sort"
 	"strconv"
 	"strings"
 
@@ -93,16 +92,4 @@ func parseConstants(list []string) (map[string]float64, error) {
 		out[name] = v
 	}
 	return out, nil
-}
-
-// SortedWarnings returns the system's warnings in file order.
-func SortedWarnings(sys *model.System) []model.Warning {
-	w := append([]model.Warning(nil), sys.Warnings...)
-	sort.SliceStable(w, func(i, j int) bool {
-		if w[i].Pos.Line != w[j].Pos.Line {
-			return w[i].Pos.Line < w[j].Pos.Line
-		}
-		return w[i].Pos.Col < w[j].Pos.Col
-	})
-	return w
 }

@@ -8,7 +8,6 @@ import (
 	"context"
 	"errors"
 	"fmt"
-	"math"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -169,14 +168,4 @@ func useFiniteDifferences(prob *solve.Problem, prog *jacobian.Program, p []float
 		}
 		return nil
 	}
-}
-
-// Finite reports whether every value is finite.
-func Finite(v []float64) bool {
-	for _, x := range v {
-		if math.IsNaN(x) || math.IsInf(x, 0) {
-			return false
-		}
-	}
-	return true
 }

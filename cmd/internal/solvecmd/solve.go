@@ -12,6 +12,7 @@ import (
 	"github.com/loopwright/loopwright/cmd/internal/modelarg"
 	"github.com/loopwright/loopwright/cmd/internal/pipeline"
 	"github.com/loopwright/loopwright/cmd/internal/render"
+	"github.com/loopwright/loopwright/model"
 	"github.com/loopwright/loopwright/solve"
 )
 
@@ -143,7 +144,7 @@ func build(pt *pipeline.Point, solveErr error) *Result {
 			res.Defines.Set(d.Name, Value{render.Float(d.Unit.FromSI(pt.Defines[i])), d.Unit.Text})
 		}
 	}
-	for _, w := range append(modelarg.SortedWarnings(sys), pt.CheckWarnings...) {
+	for _, w := range append(append([]model.Warning(nil), sys.Warnings...), pt.CheckWarnings...) {
 		res.Warnings = append(res.Warnings, w.String())
 	}
 	if solveErr != nil {
