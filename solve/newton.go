@@ -119,6 +119,7 @@ type solver struct {
 
 	lo, hi, typ []float64
 	scale       []float64 // equation scales
+	scaled      bool      // scale is set for this solve
 	f, jval     []float64 // at the current point
 	ftry, xtry  []float64
 	d, dc       []float64
@@ -131,6 +132,15 @@ type solver struct {
 	lastStep float64
 	method   string
 	colMap   []int
+
+	// The last point where F and J were evaluated together, with F
+	// unshifted there (J is in jval), so that no point is evaluated twice:
+	// the guess (scales, then the first iteration), an accepted first
+	// trial of the line search (then the next iteration), the solution
+	// (the last iteration, then the result's norms and Solver.Jacobian).
+	cx, cf []float64
+	cOK    bool
+	y      []float64 // the iterate of a run
 }
 
 // outcome is how one run ended.
@@ -163,20 +173,62 @@ func Newton(ctx context.Context, prob *Problem, x0 []float64, opts *Options) (*R
 // Solver solves one Problem many times, from different starting points or
 // with different values behind its functions (the points of an envelope
 // sweep, say). It keeps what depends only on the Jacobian's pattern between
-// solves: the block decomposition and the blocks' sub-patterns. Every Solve
-// returns exactly what Newton returns for the same call. A Solver is not for
-// concurrent use; give each goroutine its own.
+// solves: the block decomposition, the blocks' sub-patterns and the work
+// space. Every Solve returns exactly what Newton returns for the same call.
+// A Solver is not for concurrent use; give each goroutine its own.
 type Solver struct {
 	prob   *Problem
 	st     *structure.Structure
 	full   *part
 	blocks []*part // by block, made when first needed
+	work   *solver
 }
 
 // NewSolver returns a Solver for prob. The Problem's pattern (N, RowPtr,
 // ColIdx) must not change while the Solver is in use; its functions and
 // bounds may.
 func NewSolver(prob *Problem) *Solver { return &Solver{prob: prob} }
+
+// Jacobian returns the Jacobian's values at x in the order of the pattern.
+// Right after a Solve that converged, at the solution, it costs nothing: the
+// last iteration evaluated it there. The functions are taken as they were at
+// the last Solve: after changing what stands behind them (parameters), Solve
+// again before asking. The slice belongs to the Solver and is overwritten by
+// the next Solve or Jacobian.
+func (sv *Solver) Jacobian(x []float64) ([]float64, error) {
+	s := sv.work
+	if s == nil || len(x) != s.n {
+		sv.prepare(context.Background(), nil)
+		s = sv.work
+	}
+	if err := s.evalAt(x); err != nil {
+		return nil, err
+	}
+	return s.jval, nil
+}
+
+// prepare resets the work space for a new solve.
+func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
+	prob, n := sv.prob, sv.prob.N
+	s := sv.work
+	if s == nil || s.n != n {
+		nnz := prob.RowPtr[n]
+		s = &solver{prob: prob, n: n}
+		s.f, s.ftry, s.f0 = make([]float64, n), make([]float64, n), make([]float64, n)
+		s.jval = make([]float64, nnz)
+		s.xtry, s.d, s.dc = make([]float64, n), make([]float64, n), make([]float64, n)
+		s.lo, s.hi, s.typ, s.scale = make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+		s.cx, s.cf, s.y = make([]float64, n), make([]float64, n), make([]float64, n)
+		s.colMap = filled(n, -1)
+		sv.work = s
+	}
+	s.ctx, s.prob, s.opt = ctx, prob, opts.resolve()
+	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled = 1, false, 0, 0, "", false
+	// The functions may give other values than at the last solve (new
+	// parameters behind them): forget the last evaluation.
+	s.cOK = false
+	return s
+}
 
 // Solve is Newton(ctx, prob, x0, opts) for the Solver's Problem.
 func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Result, error) {
@@ -185,13 +237,7 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	if len(x0) != n || len(prob.RowPtr) != n+1 || prob.Residual == nil || prob.ResidualJacobian == nil {
 		panic("solve: Newton: Problem and x0 do not fit (N, RowPtr, x0, Residual, ResidualJacobian)")
 	}
-	s := &solver{ctx: ctx, prob: prob, opt: opts.resolve(), n: n}
-	nnz := prob.RowPtr[n]
-	s.f, s.ftry, s.f0 = make([]float64, n), make([]float64, n), make([]float64, n)
-	s.jval = make([]float64, nnz)
-	s.xtry, s.d, s.dc = make([]float64, n), make([]float64, n), make([]float64, n)
-	s.colMap = filled(n, -1)
-	s.t = 1
+	s := sv.prepare(ctx, opts)
 
 	x := slices.Clone(x0)
 	s.setBounds(x)
@@ -221,10 +267,11 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	}
 
 	// Equation scales at the guess.
-	if err := prob.ResidualJacobian(s.f0, s.jval, x); err != nil {
+	if err := s.evalAt(x); err != nil {
 		return s.fail(res, x, outcome{status: EvalFailed, bad: -1, err: err,
 			reason: "the residual cannot be evaluated at the starting guess: " + err.Error()}, "newton")
 	}
+	copy(s.f0, s.cf)
 	s.setScales()
 
 	if sv.full == nil {
@@ -233,13 +280,13 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	full := sv.full
 	full.lu = nil
 	var reasons []string
-	best := slices.Clone(x)
+	var best []float64 // the best point of the failed attempts (nil: x)
 	bestNorm := s.normOf(s.f0)
 	keep := func(y []float64) {
-		if err := prob.Residual(s.ftry, y); err == nil {
+		if err := s.residual(s.ftry, y); err == nil {
 			if nm := s.normOf(s.ftry); nm < bestNorm {
 				bestNorm = nm
-				copy(best, y)
+				best = append(best[:0], y...)
 			}
 		}
 	}
@@ -247,7 +294,8 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	// 1. Block by block, when there is more than one block.
 	if !s.opt.NoBlocks && len(st.Blocks) > 1 {
 		s.method = "newton+blocks"
-		y := slices.Clone(x)
+		y := s.y
+		copy(y, x)
 		var out outcome
 		for b, blk := range st.Blocks {
 			if sv.blocks[b] == nil {
@@ -274,7 +322,8 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 
 	// 2. Newton on the whole system.
 	s.method = "newton"
-	y := slices.Clone(x)
+	y := s.y
+	copy(y, x)
 	out := s.run(full, y, s.opt.FTol)
 	if out.ok() {
 		return s.done(res, y)
@@ -289,7 +338,7 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	// 3. Homotopy from the guess.
 	if !s.opt.NoHomotopy {
 		s.method = "homotopy"
-		y = slices.Clone(x)
+		copy(y, x)
 		out = s.homotopy(full, y)
 		if out.ok() {
 			return s.done(res, y)
@@ -309,13 +358,15 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 		}
 	}
 	last.reason = strings.Join(reasons, "; ")
+	if best == nil {
+		best = x
+	}
 	return s.fail(res, best, last, s.method)
 }
 
 // setBounds fills lo, hi and typ and moves x strictly inside its bounds.
 func (s *solver) setBounds(x []float64) {
 	p := s.prob
-	s.lo, s.hi, s.typ = make([]float64, s.n), make([]float64, s.n), make([]float64, s.n)
 	for j := range s.n {
 		s.lo[j], s.hi[j] = math.Inf(-1), math.Inf(1)
 		if p.Lower != nil && !math.IsNaN(p.Lower[j]) {
@@ -363,7 +414,6 @@ func (s *solver) setBounds(x []float64) {
 // (in s.jval): the largest |∂F_i/∂x_j|·typical_j, 1 when that is zero.
 func (s *solver) setScales() {
 	p := s.prob
-	s.scale = make([]float64, s.n)
 	for i := range s.n {
 		m := 0.0
 		for k := p.RowPtr[i]; k < p.RowPtr[i+1]; k++ {
@@ -374,6 +424,7 @@ func (s *solver) setScales() {
 		}
 		s.scale[i] = m
 	}
+	s.scaled = true
 }
 
 func (s *solver) newPart(block int, rows, cols []int) *part {
@@ -399,19 +450,50 @@ func (s *solver) newPart(block int, rows, cols []int) *part {
 	return pt
 }
 
+var errNotEvaluated = errors.New("solve: not evaluated")
+
+// evalAt makes sure F (in s.cf, unshifted) and J (in s.jval) are those at
+// x, evaluating them unless the last evaluation was at x to the bit.
+func (s *solver) evalAt(x []float64) error {
+	if s.cOK && sameBits(x, s.cx) {
+		return nil
+	}
+	s.cOK = false
+	if err := s.prob.ResidualJacobian(s.cf, s.jval, x); err != nil {
+		return err
+	}
+	copy(s.cx, x)
+	s.cOK = true
+	return nil
+}
+
+func sameBits(a, b []float64) bool {
+	for i, v := range a {
+		if math.Float64bits(v) != math.Float64bits(b[i]) {
+			return false
+		}
+	}
+	return true
+}
+
 // residual evaluates F (minus (1-t)F(x₀) in the homotopy) into f.
 func (s *solver) residual(f, x []float64) error {
-	if err := s.prob.Residual(f, x); err != nil {
+	if s.cOK && sameBits(x, s.cx) {
+		copy(f, s.cf)
+	} else if err := s.prob.Residual(f, x); err != nil {
 		return err
 	}
 	s.shift(f)
 	return nil
 }
 
+// residualJacobian evaluates the residual (as residual does) into f and the
+// Jacobian into s.jval.
 func (s *solver) residualJacobian(f, x []float64) error {
-	if err := s.prob.ResidualJacobian(f, s.jval, x); err != nil {
+	if err := s.evalAt(x); err != nil {
 		return err
 	}
+	copy(f, s.cf)
 	s.shift(f)
 	return nil
 }
@@ -592,12 +674,22 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 func (s *solver) lineSearch(pt *part, x, dir []float64, amax, phi float64) (float64, bool) {
 	copy(s.xtry, x)
 	alpha := amax
-	for alpha >= 1e-10 {
+	for first := true; alpha >= 1e-10; first = false {
 		for l, c := range pt.cols {
 			s.xtry[c] = x[c] + alpha*dir[l]
 		}
 		phiT := math.Inf(1)
-		if err := s.residual(s.ftry, s.xtry); err == nil {
+		// The first trial is usually accepted, and the next iteration
+		// needs the Jacobian there: evaluate both at once. A point where
+		// only the Jacobian fails is still judged by its residual.
+		err := errNotEvaluated
+		if first {
+			err = s.residualJacobian(s.ftry, s.xtry)
+		}
+		if err != nil {
+			err = s.residual(s.ftry, s.xtry)
+		}
+		if err == nil {
 			_, phiT = s.measure(pt, s.ftry)
 		}
 		if phiT <= (1-2e-4*alpha)*phi {
@@ -676,13 +768,13 @@ func (s *solver) finish(res *Result) {
 	res.Iterations = s.iters
 	res.StepNorm = s.lastStep
 	res.ResidualNorm, res.ScaledResidualNorm = math.NaN(), math.NaN()
-	if err := s.prob.Residual(s.ftry, res.X); err == nil {
+	if err := s.residual(s.ftry, res.X); err == nil {
 		m := 0.0
 		for _, v := range s.ftry {
 			m = max(m, math.Abs(v))
 		}
 		res.ResidualNorm = m
-		if s.scale != nil {
+		if s.scaled {
 			res.ScaledResidualNorm = s.normOf(s.ftry)
 		}
 	}
@@ -693,18 +785,21 @@ func (s *solver) fail(res *Result, x []float64, out outcome, method string) (*Re
 	copy(res.X, x)
 	res.Status = out.status
 	res.Method = method
-	if s.scale == nil {
-		s.scale = make([]float64, s.n)
+	if !s.scaled {
 		for i := range s.scale {
 			s.scale[i] = 1
 		}
+		s.scaled = true
 	}
 	s.finish(res)
 	nc := &NotConverged{Status: out.status, Iterations: s.iters, Norm: res.ScaledResidualNorm,
 		Reason: out.reason, Err: out.err}
 	// The worst equations, and the unknowns that weigh most in them.
 	var worstRows []int
-	haveJ := s.prob.ResidualJacobian(s.f, s.jval, x) == nil
+	haveJ := s.evalAt(x) == nil
+	if haveJ {
+		copy(s.f, s.cf)
+	}
 	if haveJ {
 		order := seq(s.n)
 		sc := func(i int) float64 { return math.Abs(s.f[i] / s.scale[i]) }
