@@ -177,11 +177,33 @@ func Newton(ctx context.Context, prob *Problem, x0 []float64, opts *Options) (*R
 // space. Every Solve returns exactly what Newton returns for the same call.
 // A Solver is not for concurrent use; give each goroutine its own.
 type Solver struct {
+	// KeepPivots makes each Solve start from the column order and pivots
+	// of the factorisations that the previous solves ended with (refactoring
+	// with them while they pass the pivot threshold) instead of choosing
+	// them afresh. On a sequence of nearby problems (the points of a
+	// continuation chain) that saves the symbolic analysis at every solve;
+	// the results then depend, in their last bits, on the sequence of
+	// solves and not only on each call. Forget begins a new sequence.
+	KeepPivots bool
+
 	prob   *Problem
 	st     *structure.Structure
 	full   *part
 	blocks []*part // by block, made when first needed
 	work   *solver
+}
+
+// Forget drops the factorisations kept for KeepPivots: the next Solve
+// chooses its pivots afresh, as a new Solver would.
+func (sv *Solver) Forget() {
+	if sv.full != nil {
+		sv.full.lu = nil
+	}
+	for _, pt := range sv.blocks {
+		if pt != nil {
+			pt.lu = nil
+		}
+	}
 }
 
 // NewSolver returns a Solver for prob. The Problem's pattern (N, RowPtr,
@@ -254,12 +276,10 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 		sv.blocks = make([]*part, len(sv.st.Blocks))
 	}
 	st := sv.st
-	// Every solve factors afresh (new pivots) at its first iteration, as a
-	// new solver would.
-	for _, pt := range sv.blocks {
-		if pt != nil {
-			pt.lu = nil
-		}
+	// Unless asked to keep them, every solve chooses pivots afresh at its
+	// first iteration, as a new solver would.
+	if !sv.KeepPivots {
+		sv.Forget()
 	}
 	res.Blocks = len(st.Blocks)
 	if st.Singular() {
@@ -278,7 +298,6 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 		sv.full = s.newPart(-1, seq(n), seq(n))
 	}
 	full := sv.full
-	full.lu = nil
 	var reasons []string
 	var best []float64 // the best point of the failed attempts (nil: x)
 	bestNorm := s.normOf(s.f0)

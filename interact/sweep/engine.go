@@ -11,15 +11,32 @@ import (
 // Worker solves and analyses one operating point. Run gives each goroutine
 // its own Worker, so a Worker may keep scratch space.
 type Worker interface {
-	// Point solves the steady state at parameters p, starting from x0, and
-	// fills rec's Iterations and analysis fields (Outputs, K, RGA, Det,
-	// Cond, Best, NI, Pass) in display units. It returns the converged
-	// state, which Run uses to start the next points of the chain.
+	// Point solves the steady state at parameters p, starting from the
+	// converged state from (a neighbour's, or the nominal one), and fills
+	// rec's Iterations and analysis fields (Outputs, K, RGA, Det, Cond,
+	// Best, NI, Pass) in display units. It returns the converged state,
+	// which Run hands to the next points of the chain.
 	//
-	// A point that does not converge returns a nil state and an error
-	// saying why. A point that converges but cannot be analysed returns the
-	// state and an error. Point must not keep p, x0 or rec.
-	Point(ctx context.Context, p, x0 []float64, rec *Record) (x []float64, err error)
+	// A point that does not converge returns a State with a nil X and an
+	// error saying why. A point that converges but cannot be analysed
+	// returns the state and an error. Point must not keep p, from or rec;
+	// Run keeps the slices of the returned State, so Point must not reuse
+	// them.
+	Point(ctx context.Context, p []float64, from State, rec *Record) (State, error)
+}
+
+// State is a converged point handed down a continuation chain to the
+// points solved from it.
+type State struct {
+	X []float64 // the unknowns
+	// Tangent is the worker's own data for predicting nearby points (the
+	// sensitivities of X to the axes, say); nil when it has none.
+	Tangent []float64
+	// Nominal marks the sweep's nominal state, where every chain begins.
+	// Starting from it, a worker forgets whatever it kept from the points
+	// it solved before (pivot orders, say), so that a chain's records do
+	// not depend on which chains the same worker solved earlier.
+	Nominal bool
 }
 
 // Problem is a sweep ready to run.
@@ -32,6 +49,9 @@ type Problem struct {
 	// Start is the converged state at the nominal point: every chain's first
 	// point starts from it, and so does a retry after a failed continuation.
 	Start []float64
+	// StartTangent is the worker's tangent data at Start (State.Tangent);
+	// may be nil.
+	StartTangent []float64
 	// NewWorker returns a Worker for one goroutine.
 	NewWorker func() Worker
 }
@@ -168,38 +188,39 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 // yet done. It returns false when the context was cancelled.
 func solveChain(ctx context.Context, prob *Problem, wk Worker, chain []Step, done map[int]bool, out chan<- *Record) bool {
 	p := append([]float64(nil), prob.Nominal...)
-	states := make(map[int][]float64, len(chain))
+	start := State{X: prob.Start, Tangent: prob.StartTangent, Nominal: true}
+	states := make(map[int]State, len(chain))
 	for _, s := range chain {
 		if ctx.Err() != nil {
 			return false
 		}
-		x0 := states[s.Parent]
-		fromNominal := x0 == nil
-		if fromNominal {
-			x0 = prob.Start
+		from, ok := states[s.Parent]
+		if !ok {
+			from = start
 		}
 		vals := prob.Plan.Points[s.Point]
 		for a, ax := range prob.Plan.Axes {
 			p[ax.Param] = vals[a]
 		}
 		rec := newRecord(prob, s.Point)
-		x, err := wk.Point(ctx, p, x0, rec)
-		if x == nil && err != nil && !fromNominal && ctx.Err() == nil {
+		st, err := wk.Point(ctx, p, from, rec)
+		if st.X == nil && err != nil && !from.Nominal && ctx.Err() == nil {
 			// Continuation failed: try once more from the nominal state.
 			rec = newRecord(prob, s.Point)
-			x, err = wk.Point(ctx, p, prob.Start, rec)
+			st, err = wk.Point(ctx, p, start, rec)
 		}
 		if ctx.Err() != nil {
 			return false // the point may be half done: leave it to a resume
 		}
-		rec.Converged = x != nil
+		rec.Converged = st.X != nil
 		if err != nil {
 			rec.Reason = err.Error()
-		} else if x == nil {
+		} else if st.X == nil {
 			rec.Reason = "no solution"
 		}
-		if x != nil {
-			states[s.Point] = append([]float64(nil), x...)
+		if st.X != nil {
+			st.Nominal = false
+			states[s.Point] = st
 		}
 		rec.normalize()
 		if done[s.Point] {

@@ -122,7 +122,7 @@ type cancelAfter struct {
 	cancel func()
 }
 
-func (w *cancelAfter) Point(ctx context.Context, p, x0 []float64, rec *Record) ([]float64, error) {
+func (w *cancelAfter) Point(ctx context.Context, p []float64, x0 State, rec *Record) (State, error) {
 	if w.n.Add(1) == w.at {
 		w.cancel()
 	}

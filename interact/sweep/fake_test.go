@@ -23,9 +23,10 @@ type fakeWorker struct {
 	fail  func(p []float64) bool
 }
 
-func (w *fakeWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) ([]float64, error) {
+func (w *fakeWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
+	x0 := from.X
 	if err := ctx.Err(); err != nil {
-		return nil, err
+		return State{}, err
 	}
 	a, b := p[0], p[1]
 	target := a * b
@@ -36,7 +37,7 @@ func (w *fakeWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) ([
 	}
 	rec.Iterations = it
 	if w.fail != nil && w.fail(p) {
-		return nil, errors.New("Newton: no convergence after 50 iterations (residual 3.1e-2 in \"sugar\")")
+		return State{}, errors.New("Newton: no convergence after 50 iterations (residual 3.1e-2 in \"sugar\")")
 	}
 	x := []float64{target + 1e-15*x0[0]}
 	k := []float64{1, a, b, 1}
@@ -58,7 +59,7 @@ func (w *fakeWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) ([
 	if w.calls != nil {
 		*w.calls++
 	}
-	return x, nil
+	return State{X: x}, nil
 }
 
 // fakeProblem sweeps a over [0.2, 1.6] and b over [0.1, 1.1] (display units;

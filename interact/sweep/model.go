@@ -81,6 +81,9 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 		return nil, err
 	}
 	m := &modelRun{sys: sys, prog: prog, opts: opts}
+	for _, ax := range axes {
+		m.axes = append(m.axes, ax.Param)
+	}
 	m.init()
 	nominal := make([]float64, len(sys.Params))
 	for k, s := range sys.Params {
@@ -92,7 +95,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	}
 	w := m.newWorker()
 	w.p = nominal
-	res, err := solve.Newton(ctx, w.prob, guess, opts.Solver)
+	res, err := w.sol.Solve(ctx, guess, opts.Solver)
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point does not solve, so there is nothing to continue from: %w", err)
 	}
@@ -101,6 +104,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
+	startTangent := w.tangent(nominal)
 
 	h := &Header{Format: FormatVersion, Model: sys.Name, Axes: axes, Design: opts.Design, Total: plan.Len(),
 		Outputs: m.outputs, Inputs: m.inputs, Caution: interact.Caution}
@@ -130,8 +134,11 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 		}
 	}
 	m.interest = interest
+	for _, p := range h.Pairings {
+		m.pairNames = append(m.pairNames, p.Name)
+	}
 	h.Seal(opts.ModelID + "\x00" + systemID(sys))
-	return &Problem{Header: h, Plan: plan, Nominal: nominal, Start: start,
+	return &Problem{Header: h, Plan: plan, Nominal: nominal, Start: start, StartTangent: startTangent,
 		NewWorker: func() Worker { return m.newWorker() }}, nil
 }
 
@@ -163,6 +170,10 @@ type modelRun struct {
 	interest []interact.Pairing
 	names    []string
 	eqNames  []string
+
+	pairNames []string // names of the pairings of interest
+	axes      []int    // parameter slot of each sweep axis
+	pcols     []int    // the inputs, then the axes: columns of dF/dp at each point
 }
 
 func (m *modelRun) init() {
@@ -188,6 +199,7 @@ func (m *modelRun) init() {
 		m.eqNames = append(m.eqNames, e.Name)
 	}
 	m.pattern = m.prog.Pattern()
+	m.pcols = append(append([]int(nil), sys.Inputs...), m.axes...)
 }
 
 // modelWorker solves and analyses points for one goroutine.
@@ -198,25 +210,25 @@ type modelWorker struct {
 	sol  *solve.Solver // keeps prob's block decomposition between points
 	p    []float64     // the parameters of the point being solved
 
-	jac    *jacobian.Sparse
-	lu     *sparse.LU
-	fu     *mat.Dense // dF/du
-	dydx   *mat.Dense
-	dydu   *mat.Dense
-	rhs    []float64
-	z      []float64
-	y      []float64
-	kSI    *mat.Dense
-	gs     interact.GainSet
-	aopts  interact.Options
-	scaled []float64
+	lu    *sparse.LU
+	fp    *mat.Dense // dF/dp for the inputs, then the axes
+	dxda  []float64  // dx/dp of each axis at the last point analysed, axis by axis
+	xpred []float64
+	dydx  *mat.Dense
+	dydu  *mat.Dense
+	rhs   []float64
+	z     []float64
+	y     []float64
+	gs    interact.GainSet
+	aopts interact.Options
 }
 
 func (m *modelRun) newWorker() *modelWorker {
 	n, no, ni := len(m.sys.Unknowns), len(m.sys.Outputs), len(m.sys.Inputs)
-	w := &modelWorker{m: m, eval: m.prog.NewEval(), jac: m.prog.NewJacobian(),
-		fu: mat.NewDense(len(m.sys.Equations), ni, nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil),
-		rhs: make([]float64, n), z: make([]float64, n), y: make([]float64, no), kSI: mat.NewDense(no, ni, nil)}
+	w := &modelWorker{m: m, eval: m.prog.NewEval(),
+		fp: mat.NewDense(len(m.sys.Equations), len(m.pcols), nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil),
+		dxda: make([]float64, len(m.axes)*n), xpred: make([]float64, n),
+		rhs: make([]float64, n), z: make([]float64, n), y: make([]float64, no)}
 	w.prob = &solve.Problem{
 		N: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx,
 		Residual: func(f, x []float64) error { return w.eval.Residual(f, x, w.p) },
@@ -227,6 +239,9 @@ func (m *modelRun) newWorker() *modelWorker {
 		Lower: m.lower, Upper: m.upper, VarNames: m.names, EqNames: m.eqNames,
 	}
 	w.sol = solve.NewSolver(w.prob)
+	// Pivots are kept along a chain and forgotten at its start, so that
+	// records depend on the chain alone (not on -j).
+	w.sol.KeepPivots = true
 	if m.opts.Analysis != nil {
 		w.aopts = *m.opts.Analysis
 	}
@@ -237,31 +252,70 @@ func (m *modelRun) newWorker() *modelWorker {
 	return w
 }
 
-// Point implements Worker.
-func (w *modelWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) ([]float64, error) {
+// Point implements Worker. From a neighbour it first predicts the state
+// at p along the neighbour's tangent (x + dx/dp·Δp over the axes) and
+// corrects with plain Newton on the whole system; when that does not
+// converge quickly it solves from the neighbour's state with the solver's
+// full strategy (blocks, homotopy), as from any guess.
+func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
 	w.p = p
-	res, err := w.sol.Solve(ctx, x0, w.m.opts.Solver)
-	if res != nil {
-		rec.Iterations = res.Iterations
+	if from.Nominal {
+		// A new chain: keep nothing from other chains' points.
+		w.lu = nil
+		w.sol.Forget()
 	}
+	opts := w.m.opts.Solver
+	var res *solve.Result
+	var err error
+	iters := 0
+	if x0 := w.predict(p, from); x0 != nil {
+		fast := solve.Options{}
+		if opts != nil {
+			fast = *opts
+		}
+		fast.NoBlocks, fast.NoHomotopy = true, true
+		fast.MaxIter = fastIterations
+		if opts != nil && opts.MaxIter > 0 {
+			fast.MaxIter = min(opts.MaxIter, fastIterations)
+		}
+		res, err = w.sol.Solve(ctx, x0, &fast)
+		if res != nil {
+			iters = res.Iterations
+		}
+		if err != nil && ctx.Err() == nil {
+			res = nil
+		}
+	}
+	if res == nil {
+		res, err = w.sol.Solve(ctx, from.X, opts)
+		if res != nil {
+			iters += res.Iterations
+		}
+	}
+	rec.Iterations = iters
 	if err != nil {
-		return nil, err
+		return State{}, err
 	}
 	x := res.X
+	st := State{X: x}
 	a, k, err := w.analyse(x, p)
 	if err != nil {
-		return x, err
+		return st, err
 	}
+	st.Tangent = w.tangent(p)
 	no, ni := len(w.m.outputs), len(w.m.inputs)
 	if err := w.eval.Outputs(w.y, x, p); err != nil {
-		return x, err
+		return st, err
 	}
-	rec.Outputs = make([]float64, no)
+	np := len(w.m.interest)
+	// One backing array for the record's numbers.
+	buf := make([]float64, no+2*no*ni+np)
+	rec.Outputs, buf = buf[:no:no], buf[no:]
+	rec.K, buf = buf[:no*ni:no*ni], buf[no*ni:]
+	rec.RGA, rec.NI = buf[:no*ni:no*ni], buf[no*ni:]
 	for i, o := range w.m.sys.Outputs {
 		rec.Outputs[i] = o.Unit.FromSI(w.y[i])
 	}
-	rec.K = make([]float64, no*ni)
-	rec.RGA = make([]float64, no*ni)
 	for i := 0; i < no; i++ {
 		for j := 0; j < ni; j++ {
 			rec.K[i*ni+j] = k.At(i, j)
@@ -274,10 +328,9 @@ func (w *modelWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) (
 		rec.Cond = a.SVD.Cond
 	}
 	if b := bestOf(a); b != nil {
-		rec.Best = PairingName(w.m.outputs, w.m.inputs, b.Pairs)
+		rec.Best = w.pairingName(b.Pairs)
 	}
-	rec.NI = make([]float64, len(w.m.interest))
-	rec.Pass = make([]bool, len(w.m.interest))
+	rec.Pass = make([]bool, np)
 	// Unscaled, the analysis's K is k itself and its NI of a pairing is
 	// Niederlinski(k, pr) to the bit (det from the same LU): reuse it.
 	unscaled := w.aopts.Scaling == interact.ScaleNone
@@ -294,32 +347,87 @@ func (w *modelWorker) Point(ctx context.Context, p, x0 []float64, rec *Record) (
 			rec.NI[q] = interact.Niederlinski(k, pr)
 		}
 	}
-	return x, nil
+	return st, nil
+}
+
+// fastIterations caps the Newton corrector after a prediction: from a good
+// prediction it converges in one or two iterations, and a prediction that
+// needs more is better abandoned for the full solver.
+const fastIterations = 8
+
+// predict returns the state at p predicted from the neighbour's state and
+// tangent (x + Σ_a dx/dp_a·Δp_a), or nil when the neighbour has no tangent.
+func (w *modelWorker) predict(p []float64, from State) []float64 {
+	n, na := len(from.X), len(w.m.axes)
+	if len(from.Tangent) != na*(n+1) {
+		return nil
+	}
+	x := w.xpred
+	copy(x, from.X)
+	for a, k := range w.m.axes {
+		dp := p[k] - from.Tangent[a]
+		if dp == 0 {
+			continue
+		}
+		t := from.Tangent[na+a*n : na+(a+1)*n]
+		for j, v := range t {
+			x[j] += v * dp
+		}
+	}
+	for j, v := range x {
+		if !(v > w.m.lower[j] && v < w.m.upper[j]) || math.IsInf(v, 0) {
+			x[j] = from.X[j] // keep what would leave the bounds where it was
+		}
+	}
+	return x
+}
+
+// tangent returns the state's tangent data after analyse: the axes' values
+// at p, then dx/dp of each axis (State.Tangent's layout for this worker).
+func (w *modelWorker) tangent(p []float64) []float64 {
+	na := len(w.m.axes)
+	t := make([]float64, na+len(w.dxda))
+	for a, k := range w.m.axes {
+		t[a] = p[k]
+	}
+	copy(t[na:], w.dxda)
+	return t
+}
+
+// pairingName names a pairing, without building the name again for the
+// pairings of interest.
+func (w *modelWorker) pairingName(pr interact.Pairing) string {
+	for q, r := range w.m.interest {
+		if slices.Equal(r, pr) {
+			return w.m.pairNames[q]
+		}
+	}
+	return PairingName(w.m.outputs, w.m.inputs, pr)
 }
 
 // analyse computes the gain matrix at the solved state x by the implicit-
 // function theorem, K = dy/dx (-Fx⁻¹ Fu) + dy/du, in display units, and
-// the interaction analysis of it.
+// the interaction analysis of it. It also leaves dx/dp of each axis in
+// w.dxda for predicting the next points. The Jacobian is the solver's, at
+// the solution of its last Solve.
 func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, error) {
 	m := w.m
 	n, no, ni := len(m.sys.Unknowns), len(m.outputs), len(m.inputs)
-	if err := w.eval.Jacobian(w.jac, x, p); err != nil {
+	jval, err := w.sol.Jacobian(x)
+	if err != nil {
 		return nil, nil, err
 	}
-	csr := &sparse.CSR{Rows: n, Cols: n, RowPtr: w.jac.RowPtr, ColIdx: w.jac.ColIdx, Val: w.jac.Val}
-	var err error
+	csr := &sparse.CSR{Rows: n, Cols: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx, Val: jval}
 	if w.lu == nil {
 		w.lu, err = sparse.Factorize(csr, nil)
 	} else {
 		err = w.lu.Refactor(csr)
-		if err != nil {
-			w.lu = nil
-		}
 	}
 	if err != nil {
+		w.lu = nil
 		return nil, nil, fmt.Errorf("no gains: the Jacobian dF/dx is singular at this point (%v)", err)
 	}
-	if err := w.eval.ParamJacobian(w.fu, x, p, m.sys.Inputs); err != nil {
+	if err := w.eval.ParamJacobian(w.fp, x, p, m.pcols); err != nil {
 		return nil, nil, err
 	}
 	if err := w.eval.OutputGradients(w.dydx, w.dydu, x, p, m.sys.Inputs); err != nil {
@@ -328,7 +436,7 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	k := mat.NewDense(no, ni, nil)
 	for j := 0; j < ni; j++ {
 		for r := 0; r < n; r++ {
-			w.rhs[r] = -w.fu.At(r, j)
+			w.rhs[r] = -w.fp.At(r, j)
 		}
 		w.lu.Solve(w.z, w.rhs)
 		for i := 0; i < no; i++ {
@@ -339,6 +447,12 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 			}
 			k.Set(i, j, s*m.inScale[j]/m.outScale[i])
 		}
+	}
+	for a := range m.axes {
+		for r := 0; r < n; r++ {
+			w.rhs[r] = -w.fp.At(r, ni+a)
+		}
+		w.lu.Solve(w.dxda[a*n:(a+1)*n], w.rhs)
 	}
 	gs := w.gs
 	gs.K = k

@@ -1,6 +1,7 @@
 package sweep
 
 import (
+	"bytes"
 	"context"
 	"math"
 	"testing"
@@ -102,4 +103,36 @@ func TestColumnSweepAgainstCheckValues(t *testing.T) {
 	}
 	t.Logf("P1 verdict: %s", s.Pairings[0].Verdict)
 	t.Logf("P2 verdict: %s", s.Pairings[1].Verdict)
+}
+
+// TestModelRecordsDoNotDependOnWorkers: a model worker keeps pivots and
+// tangents along a chain; the records must still be the same bits whatever
+// the number of workers and the order in which they take the chains, for a
+// grid and for a scattered design (whose chains are trees).
+func TestModelRecordsDoNotDependOnWorkers(t *testing.T) {
+	sys, prog := columnA(t)
+	for _, d := range []Design{{}, {Kind: LHS, Points: 40, Seed: 3}} {
+		prob, err := FromModel(context.Background(), sys, prog, &ModelOptions{Axes: columnAxes(t, sys, 5, 6), Design: d})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var want []byte
+		for _, workers := range []int{1, 3, 2} {
+			var buf bytes.Buffer
+			enc := NewEncoder(&buf, JSONL, prob.Header)
+			if err := enc.WriteHeader(); err != nil {
+				t.Fatal(err)
+			}
+			if err := Run(context.Background(), prob, &Options{Workers: workers}, enc.WriteRecord); err != nil {
+				t.Fatal(err)
+			}
+			if want == nil {
+				want = buf.Bytes()
+				continue
+			}
+			if !bytes.Equal(buf.Bytes(), want) {
+				t.Errorf("design %v: records with %d workers differ from those with 1", d.Kind, workers)
+			}
+		}
+	}
 }

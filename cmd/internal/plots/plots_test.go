@@ -20,11 +20,11 @@ var update = flag.Bool("update", false, "rewrite the golden SVG files in testdat
 // where λ11 changes sign. Points with a > 1.5 and b > 1.0 "fail to converge".
 type plant struct{}
 
-func (plant) Point(_ context.Context, p, x0 []float64, rec *sweep.Record) ([]float64, error) {
+func (plant) Point(_ context.Context, p []float64, _ sweep.State, rec *sweep.Record) (sweep.State, error) {
 	a, b := p[0], p[1]
 	rec.Iterations = 2
 	if a > 1.5 && b > 1.0 {
-		return nil, errFail
+		return sweep.State{}, errFail
 	}
 	l := 1 / (1 - a*b)
 	rec.Outputs = []float64{a * b, 1}
@@ -37,7 +37,7 @@ func (plant) Point(_ context.Context, p, x0 []float64, rec *sweep.Record) ([]flo
 	if l < 0.5 {
 		rec.Best = "y1:u2 y2:u1"
 	}
-	return []float64{a * b}, nil
+	return sweep.State{X: []float64{a * b}}, nil
 }
 
 type failErr struct{}

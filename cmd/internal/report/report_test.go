@@ -64,7 +64,7 @@ func mixerInput(t testing.TB, scaling interact.Scaling) *Input {
 // inputs f_a, f_b, f_w at their nominal values, w_a swept.
 type mixerPlant struct{ h *sweep.Header }
 
-func (m mixerPlant) Point(_ context.Context, p, _ []float64, rec *sweep.Record) ([]float64, error) {
+func (m mixerPlant) Point(_ context.Context, p []float64, _ sweep.State, rec *sweep.Record) (sweep.State, error) {
 	const fa, fb, fw, wb, aInB, bInA = 1500.0, 1000.0, 2500.0, 0.40, 0.10, 0.05
 	wa := p[0]
 	F := fa + fb + fw
@@ -85,7 +85,7 @@ func (m mixerPlant) Point(_ context.Context, p, _ []float64, rec *sweep.Record) 
 	g := &interact.GainSet{Outputs: sig("f_out", "x_a", "x_b"), Inputs: sig("f_a", "f_b", "f_w"), K: k}
 	a, err := interact.Analyze(g, &interact.Options{MaxPairings: -1})
 	if err != nil {
-		return []float64{F, xa, xb}, err
+		return sweep.State{X: []float64{F, xa, xb}}, err
 	}
 	rec.Iterations = 1
 	rec.Outputs = []float64{F, xa, xb}
@@ -105,7 +105,7 @@ func (m mixerPlant) Point(_ context.Context, p, _ []float64, rec *sweep.Record) 
 	if top := topPairing(a); top != nil && top.Verdict != interact.Cautioned {
 		rec.Best = sweep.PairingName(m.h.Outputs, m.h.Inputs, top.Pairs)
 	}
-	return []float64{F, xa, xb}, nil
+	return sweep.State{X: []float64{F, xa, xb}}, nil
 }
 
 func slicesEqual(a interact.Pairing, b []int) bool {
