@@ -83,6 +83,11 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	m := &modelRun{sys: sys, prog: prog, opts: opts}
 	for _, ax := range axes {
 		m.axes = append(m.axes, ax.Param)
+		span := math.Abs(ax.To - ax.From)
+		if !(span > 0) || math.IsInf(span, 0) {
+			span = 1
+		}
+		m.axisSpan = append(m.axisSpan, span)
 	}
 	m.init()
 	nominal := make([]float64, len(sys.Params))
@@ -104,7 +109,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
-	startTangent := w.tangent(nominal)
+	startTangent := w.tangent(nominal, State{})
 
 	h := &Header{Format: FormatVersion, Model: sys.Name, Axes: axes, Design: opts.Design, Total: plan.Len(),
 		Outputs: m.outputs, Inputs: m.inputs, Caution: interact.Caution}
@@ -173,7 +178,8 @@ type modelRun struct {
 
 	pairNames []string // names of the pairings of interest
 	axes      []int    // parameter slot of each sweep axis
-	pcols     []int    // the inputs, then the axes: columns of dF/dp at each point
+	axisSpan  []float64
+	pcols     []int // the inputs, then the axes: columns of dF/dp at each point
 }
 
 func (m *modelRun) init() {
@@ -302,7 +308,7 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	if err != nil {
 		return st, err
 	}
-	st.Tangent = w.tangent(p)
+	st.Tangent = w.tangent(p, from)
 	no, ni := len(w.m.outputs), len(w.m.inputs)
 	if err := w.eval.Outputs(w.y, x, p); err != nil {
 		return st, err
@@ -355,23 +361,92 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 // needs more is better abandoned for the full solver.
 const fastIterations = 8
 
+// tangentData is the worker's data in State.Tangent for a state at
+// parameters p with unknowns x: p over the axes and dx/dp of each axis, and,
+// when the state was solved from a neighbour at p' with unknowns x', the
+// same for that neighbour. Laid out as
+//
+//	[ p (na) | dx/dp (na·n, axis by axis) | p' (na) | x' (n) | dx'/dp (na·n) ]
+//
+// with the neighbour's part missing for the nominal state.
+type tangentData struct {
+	p, dxdp              []float64
+	pBack, xBack, dxBack []float64 // nil without the neighbour's part
+}
+
+func parseTangent(t []float64, na, n int) (tangentData, bool) {
+	var d tangentData
+	switch len(t) {
+	case na * (n + 1):
+	case 2*na*(n+1) + n:
+		d.pBack, d.xBack, d.dxBack = t[na*(n+1):na*(n+2)], t[na*(n+2):na*(n+2)+n], t[na*(n+2)+n:]
+	default:
+		return d, false
+	}
+	d.p, d.dxdp = t[:na], t[na:na*(n+1)]
+	return d, true
+}
+
 // predict returns the state at p predicted from the neighbour's state and
-// tangent (x + Σ_a dx/dp_a·Δp_a), or nil when the neighbour has no tangent.
+// tangent, or nil when the neighbour has no tangent. The prediction is
+// first order, x + Σ_a dx/dp_a·Δp_a, unless the step continues the line
+// from the neighbour's own neighbour (the chains of a grid are straight
+// lines): then it is the cubic through both states with both tangents
+// (Hermite), which lets Newton converge in one iteration on smooth
+// stretches.
 func (w *modelWorker) predict(p []float64, from State) []float64 {
 	n, na := len(from.X), len(w.m.axes)
-	if len(from.Tangent) != na*(n+1) {
+	t, ok := parseTangent(from.Tangent, na, n)
+	if !ok {
 		return nil
 	}
 	x := w.xpred
 	copy(x, from.X)
+	// Δ = p - p_from and the step back g = p' - p_from, in axis spans.
+	var dd, gg, dg float64
 	for a, k := range w.m.axes {
-		dp := p[k] - from.Tangent[a]
+		d := (p[k] - t.p[a]) / w.m.axisSpan[a]
+		dd += d * d
+		if t.pBack != nil {
+			g := (t.pBack[a] - t.p[a]) / w.m.axisSpan[a]
+			gg, dg = gg+g*g, dg+d*g
+		}
+	}
+	if dd == 0 {
+		return x
+	}
+	// c is the step as a multiple of the step back (c = -1 on a grid).
+	c, cubic := 0.0, false
+	if gg > 0 && dg*dg >= 0.99*dd*gg && dd <= 4*gg {
+		c, cubic = dg/gg, true
+	}
+	// Whatever the cubic does not cover (all of the step, or the part off
+	// the line) is taken to first order.
+	for a, k := range w.m.axes {
+		dp := p[k] - t.p[a]
+		if cubic {
+			dp -= c * (t.pBack[a] - t.p[a])
+		}
 		if dp == 0 {
 			continue
 		}
-		t := from.Tangent[na+a*n : na+(a+1)*n]
-		for j, v := range t {
+		for j, v := range t.dxdp[a*n : (a+1)*n] {
 			x[j] += v * dp
+		}
+	}
+	if cubic {
+		// Hermite basis on s in [0, 1] (s = 0 here, s = 1 at the neighbour's
+		// neighbour), evaluated at s = c.
+		h00, h10 := 2*c*c*c-3*c*c+1, c*c*c-2*c*c+c
+		h01, h11 := -2*c*c*c+3*c*c, c*c*c-c*c
+		for j := range x {
+			m0, m1 := 0.0, 0.0 // dx/ds at both ends
+			for a := range w.m.axes {
+				g := t.pBack[a] - t.p[a]
+				m0 += t.dxdp[a*n+j] * g
+				m1 += t.dxBack[a*n+j] * g
+			}
+			x[j] += (h00-1)*from.X[j] + h10*m0 + h01*t.xBack[j] + h11*m1
 		}
 	}
 	for j, v := range x {
@@ -382,15 +457,25 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 	return x
 }
 
-// tangent returns the state's tangent data after analyse: the axes' values
-// at p, then dx/dp of each axis (State.Tangent's layout for this worker).
-func (w *modelWorker) tangent(p []float64) []float64 {
-	na := len(w.m.axes)
-	t := make([]float64, na+len(w.dxda))
+// tangent returns the tangent data of the state just analysed at p,
+// solved from the neighbour from (see tangentData).
+func (w *modelWorker) tangent(p []float64, from State) []float64 {
+	na, n := len(w.m.axes), len(w.xpred)
+	size := na * (n + 1)
+	back, ok := parseTangent(from.Tangent, na, len(from.X))
+	if ok && len(from.X) == n {
+		size = 2*size + n
+	}
+	t := make([]float64, size)
 	for a, k := range w.m.axes {
 		t[a] = p[k]
 	}
 	copy(t[na:], w.dxda)
+	if size > na*(n+1) {
+		copy(t[na*(n+1):], back.p)
+		copy(t[na*(n+2):], from.X)
+		copy(t[na*(n+2)+n:], back.dxdp)
+	}
 	return t
 }
 
