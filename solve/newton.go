@@ -122,7 +122,7 @@ type solver struct {
 	scaled      bool      // scale is set for this solve
 	f, jval     []float64 // at the current point
 	ftry, xtry  []float64
-	d, dc       []float64
+	d, dc, w    []float64
 
 	hom bool      // subtract (1-t) F(x₀)
 	t   float64   // homotopy parameter
@@ -238,7 +238,7 @@ func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
 		s = &solver{prob: prob, n: n}
 		s.f, s.ftry, s.f0 = make([]float64, n), make([]float64, n), make([]float64, n)
 		s.jval = make([]float64, nnz)
-		s.xtry, s.d, s.dc = make([]float64, n), make([]float64, n), make([]float64, n)
+		s.xtry, s.d, s.dc, s.w = make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
 		s.lo, s.hi, s.typ, s.scale = make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
 		s.cx, s.cf, s.y = make([]float64, n), make([]float64, n), make([]float64, n)
 		s.colMap = filled(n, -1)
@@ -601,7 +601,7 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 		for l, r := range pt.rows {
 			d[l] = -s.f[r]
 		}
-		pt.lu.Solve(d, d)
+		pt.lu.SolveWith(s.w[:len(pt.cols)], d, d)
 
 		// Bounds. First try the Newton step with each component cut to
 		// 0.995 of its distance to a bound: it lets a mole fraction fall

@@ -224,6 +224,7 @@ type modelWorker struct {
 	dydu  *mat.Dense
 	rhs   []float64
 	z     []float64
+	work  []float64
 	y     []float64
 	gs    interact.GainSet
 	aopts interact.Options
@@ -234,7 +235,7 @@ func (m *modelRun) newWorker() *modelWorker {
 	w := &modelWorker{m: m, eval: m.prog.NewEval(),
 		fp: mat.NewDense(len(m.sys.Equations), len(m.pcols), nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil),
 		dxda: make([]float64, len(m.axes)*n), xpred: make([]float64, n),
-		rhs: make([]float64, n), z: make([]float64, n), y: make([]float64, no)}
+		rhs: make([]float64, n), z: make([]float64, n), work: make([]float64, n), y: make([]float64, no)}
 	w.prob = &solve.Problem{
 		N: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx,
 		Residual: func(f, x []float64) error { return w.eval.Residual(f, x, w.p) },
@@ -523,7 +524,7 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 		for r := 0; r < n; r++ {
 			w.rhs[r] = -w.fp.At(r, j)
 		}
-		w.lu.Solve(w.z, w.rhs)
+		w.lu.SolveWith(w.work, w.z, w.rhs)
 		for i := 0; i < no; i++ {
 			s := w.dydu.At(i, j)
 			row := w.dydx.RawRowView(i)
@@ -537,7 +538,7 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 		for r := 0; r < n; r++ {
 			w.rhs[r] = -w.fp.At(r, ni+a)
 		}
-		w.lu.Solve(w.dxda[a*n:(a+1)*n], w.rhs)
+		w.lu.SolveWith(w.work, w.dxda[a*n:(a+1)*n], w.rhs)
 	}
 	gs := w.gs
 	gs.K = k

@@ -47,8 +47,9 @@ type LU struct {
 	ux         []float64
 	udiag      []float64
 	anorm      float64
-	refactored int // numeric refactorisations that kept the pivots
-	fresh      int // factorisations that chose pivots
+	work       []float64 // scratch of refactor
+	refactored int       // numeric refactorisations that kept the pivots
+	fresh      int       // factorisations that chose pivots
 }
 
 var errPivot = errors.New("sparse: kept pivot failed the threshold")
@@ -295,7 +296,10 @@ func (f *LU) eliminate() error {
 // no longer acceptable.
 func (f *LU) refactor() error {
 	n := f.n
-	x := make([]float64, n)
+	if len(f.work) != n {
+		f.work = make([]float64, n)
+	}
+	x := f.work
 	for k := range n {
 		col := f.q[k]
 		uRows := f.ui[f.up[k]:f.up[k+1]]
@@ -340,6 +344,15 @@ func (f *LU) refactor() error {
 // slice. Lengths other than the order of A panic.
 func (f *LU) Solve(dst, b []float64) {
 	f.solve(dst, b, make([]float64, f.n), false)
+}
+
+// SolveWith is Solve with the caller's work space w (length n), so that it
+// does not allocate.
+func (f *LU) SolveWith(w, dst, b []float64) {
+	if len(w) != f.n {
+		panic("sparse: SolveWith: work space of the wrong length")
+	}
+	f.solve(dst, b, w, false)
 }
 
 // SolveTrans sets dst to the solution x of Aᵀ x = b. dst and b may be the
