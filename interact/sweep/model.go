@@ -222,6 +222,7 @@ type modelWorker struct {
 	xpred []float64
 	dydx  *mat.Dense
 	dydu  *mat.Dense
+	k     *mat.Dense // the gain matrix of the last point, display units
 	rhs   []float64
 	z     []float64
 	work  []float64
@@ -233,7 +234,7 @@ type modelWorker struct {
 func (m *modelRun) newWorker() *modelWorker {
 	n, no, ni := len(m.sys.Unknowns), len(m.sys.Outputs), len(m.sys.Inputs)
 	w := &modelWorker{m: m, eval: m.prog.NewEval(),
-		fp: mat.NewDense(len(m.sys.Equations), len(m.pcols), nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil),
+		fp: mat.NewDense(len(m.sys.Equations), len(m.pcols), nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil), k: mat.NewDense(no, ni, nil),
 		dxda: make([]float64, len(m.axes)*n), xpred: make([]float64, n),
 		rhs: make([]float64, n), z: make([]float64, n), work: make([]float64, n), y: make([]float64, no)}
 	w.prob = &solve.Problem{
@@ -519,7 +520,7 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	if err := w.eval.OutputGradients(w.dydx, w.dydu, x, p, m.sys.Inputs); err != nil {
 		return nil, nil, err
 	}
-	k := mat.NewDense(no, ni, nil)
+	k := w.k // the analysis copies what it keeps
 	for j := 0; j < ni; j++ {
 		for r := 0; r < n; r++ {
 			w.rhs[r] = -w.fp.At(r, j)
