@@ -20,7 +20,9 @@ type Program struct {
 	defs    []*tape
 	checks  []*tape
 	pattern *Sparse // structure of dF/dx, Val nil
-	maxOps  int     // longest tape, for the work buffers
+	maxOps  int     // longest tape (source form), for describing errors
+	consts  []float64
+	size    int // length of the value space: nx + np + len(consts) + the most temporaries of any tape
 	xNames  []string
 	pNames  []string
 	xTyp    []float64 // typical magnitudes for finite-difference steps
@@ -73,6 +75,22 @@ func Compile(sys *model.System) (*Program, error) {
 	}
 	if len(errs) > 0 {
 		return nil, errors.Join(errs...)
+	}
+
+	all := [][]*tape{prog.eqs, prog.outs, prog.defs, prog.checks}
+	var pool constPool
+	for _, ts := range all {
+		for _, t := range ts {
+			pool.collect(t)
+		}
+	}
+	prog.consts = pool.vals
+	prog.size = prog.nx + prog.np + len(pool.vals)
+	for _, ts := range all {
+		for _, t := range ts {
+			t.lower(prog.nx, prog.np, &pool)
+			prog.size = max(prog.size, int(t.base)+len(t.code))
+		}
 	}
 
 	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
@@ -131,8 +149,12 @@ func (p *Program) NewJacobian() *Sparse { return p.pattern.clone(true) }
 
 // NewEval returns a new evaluator with its own work buffers.
 func (p *Program) NewEval() *Eval {
+	w := make([]float64, p.size)
+	copy(w[p.nx+p.np:], p.consts)
 	return &Eval{
 		prog: p,
+		w:    w,
+		d:    make([]float64, p.size),
 		vals: make([]float64, p.maxOps),
 		adj:  make([]float64, p.maxOps),
 		padj: make([]float64, p.np),
@@ -417,6 +439,7 @@ func identity(code opcode, args []ref) (ref, bool) {
 // tapes, so folding and evaluation cannot disagree.
 func (c *compiler) fold(code opcode, at model.Pos, what string, k float64, args []ref) (ref, error) {
 	mini := &tape{name: c.t.name, kind: c.t.kind}
+	var pool constPool
 	for _, a := range args {
 		mini.ops = append(mini.ops, op{code: opConst, c: a.c})
 		mini.at = append(mini.at, at)
@@ -426,11 +449,14 @@ func (c *compiler) fold(code opcode, at model.Pos, what string, k float64, args 
 	mini.at = append(mini.at, at)
 	mini.what = append(mini.what, what)
 	mini.root = int32(len(mini.ops) - 1)
-	v := make([]float64, len(mini.ops))
-	if r := mini.forward(v, nil, nil); !finite(r) {
-		return ref{}, mini.valueFault(v)
+	pool.collect(mini)
+	mini.lower(0, 0, &pool)
+	w := make([]float64, int(mini.base)+len(mini.code))
+	copy(w, pool.vals)
+	if r := mini.forward(w); !finite(r) {
+		return ref{}, mini.valueFault(mini.gather(make([]float64, len(mini.ops)), w, len(mini.ops)))
 	}
-	return ref{isConst: true, c: v[mini.root]}, nil
+	return ref{isConst: true, c: w[mini.out]}, nil
 }
 
 func (c *compiler) errAt(at model.Pos, what, msg string) *EvalError {

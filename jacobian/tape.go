@@ -40,21 +40,45 @@ func (c opcode) binary() bool {
 	return false
 }
 
-// op is one instruction. For opVar and opParam, a is the index into x or p.
+// op is one instruction of the source form of a tape, as the compiler emits
+// it and as error messages describe it. For opVar and opParam, a is the
+// index into x or p.
 type op struct {
 	code opcode
 	a, b int32
 	c    float64
 }
 
+// instr is one instruction of the lowered form that Eval runs: arithmetic
+// only. Operands index the value space w of an Eval, laid out as
+//
+//	w = [ x (nx) | p (np) | the program's constants | temporaries ]
+//
+// so loading an unknown, a parameter or a constant costs nothing: operand a
+// of an instruction is simply the index of x[j] in w. The value of
+// instruction k goes to temporary k, w[base+k]. For opPowC, b is the index of
+// the constant exponent; for other unary ops b equals a.
+type instr struct {
+	code opcode
+	a, b int32
+}
+
 // varRef ties a load instruction to the symbol it loads.
 type varRef struct {
-	slot  int32 // the load instruction
+	slot  int32 // the load instruction (source form)
 	index int32 // index into x (or p)
 }
 
 // tape computes one scalar: an equation's residual, an output, a define or
 // the quantity of a range check.
+//
+// A tape has two forms. The source form (ops, at, what) is one op per
+// loaded symbol, constant and operation, each with the position of its
+// formula; it is what the compiler emits and what error messages describe.
+// The lowered form (code) is the arithmetic of the source form, in the same
+// order, on the value space of an Eval; it is what forward and reverse run.
+// slot maps each source op to the index of its value in w, so the values and
+// adjoints of the source form can be gathered when an error is described.
 type tape struct {
 	name string
 	kind string // "equation", "output", "define", "check"
@@ -66,81 +90,93 @@ type tape struct {
 
 	vars   []varRef // unknowns loaded, sorted by index: the row's pattern
 	params []varRef // parameters loaded, sorted by index
+
+	code   []instr // lowered form
+	base   int32   // index in w of temporary 0
+	out    int32   // index in w of the result
+	slot   []int32 // index in w of the value of each source op
+	leaves []int32 // indices in w of the unknowns, parameters and constants loaded
 }
 
-// forward evaluates the tape into v (len(v) >= len(t.ops)) and returns the
-// result.
-func (t *tape) forward(v, x, p []float64) float64 {
-	v = v[:len(t.ops)]
-	for k, o := range t.ops {
+// forward evaluates the lowered tape on the value space w (x, p and the
+// constants in place, room for the temporaries) and returns the result. The
+// operations and their order are those of the source form.
+func (t *tape) forward(w []float64) float64 {
+	tmp := w[t.base : int(t.base)+len(t.code)]
+	for k, o := range t.code {
 		switch o.code {
-		case opVar:
-			v[k] = x[o.a]
-		case opParam:
-			v[k] = p[o.a]
-		case opConst:
-			v[k] = o.c
 		case opAdd:
-			v[k] = v[o.a] + v[o.b]
+			tmp[k] = w[o.a] + w[o.b]
 		case opSub:
-			v[k] = v[o.a] - v[o.b]
+			tmp[k] = w[o.a] - w[o.b]
 		case opMul:
-			v[k] = v[o.a] * v[o.b]
+			tmp[k] = w[o.a] * w[o.b]
 		case opDiv:
-			v[k] = v[o.a] / v[o.b]
+			tmp[k] = w[o.a] / w[o.b]
 		case opNeg:
-			v[k] = -v[o.a]
+			tmp[k] = -w[o.a]
 		case opSq:
-			a := v[o.a]
-			v[k] = a * a
+			a := w[o.a]
+			tmp[k] = a * a
 		case opPowC:
-			v[k] = math.Pow(v[o.a], o.c)
+			tmp[k] = math.Pow(w[o.a], w[o.b])
 		case opPow:
-			v[k] = math.Pow(v[o.a], v[o.b])
+			tmp[k] = math.Pow(w[o.a], w[o.b])
 		case opExp:
-			v[k] = math.Exp(v[o.a])
+			tmp[k] = math.Exp(w[o.a])
 		case opLog:
-			v[k] = math.Log(v[o.a])
+			tmp[k] = math.Log(w[o.a])
 		case opLog10:
-			v[k] = math.Log10(v[o.a])
+			tmp[k] = math.Log10(w[o.a])
 		case opSqrt:
-			v[k] = math.Sqrt(v[o.a])
+			tmp[k] = math.Sqrt(w[o.a])
 		case opAbs:
-			v[k] = math.Abs(v[o.a])
+			tmp[k] = math.Abs(w[o.a])
 		case opMin:
-			a, b := v[o.a], v[o.b]
+			a, b := w[o.a], w[o.b]
 			if b < a || b != b {
 				a = b
 			}
-			v[k] = a
+			tmp[k] = a
 		case opMax:
-			a, b := v[o.a], v[o.b]
+			a, b := w[o.a], w[o.b]
 			if b > a || b != b {
 				a = b
 			}
-			v[k] = a
+			tmp[k] = a
 		default:
 			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 		}
 	}
-	return v[t.root]
+	return w[t.out]
 }
 
-// reverse runs the adjoint sweep after forward: d[k] becomes the derivative
-// of the result with respect to the value of slot k. v holds the values of
-// the forward sweep.
-func (t *tape) reverse(d, v []float64) {
-	d = d[:t.root+1]
-	clear(d)
-	d[t.root] = 1
-	for k := int(t.root); k >= 0; k-- {
-		g := d[k]
+// reverse runs the adjoint sweep after forward: d (laid out as w) receives
+// the derivative of the result with respect to every temporary and every
+// leaf the tape loads; w holds the values of the forward sweep. Adjoints are
+// accumulated in the order of the source form's sweep, operand a before
+// operand b, so a derivative summed over several uses is the same number.
+// The adjoints of leaves the tape does not load are left alone.
+func (t *tape) reverse(d, w []float64) {
+	for _, l := range t.leaves {
+		d[l] = 0
+	}
+	n := int(t.out) - int(t.base) // temporary holding the result
+	if n < 0 {
+		d[t.out] = 1 // the result is a leaf
+		return
+	}
+	dt := d[t.base : int(t.base)+n+1]
+	vt := w[t.base : int(t.base)+n+1]
+	clear(dt)
+	dt[n] = 1
+	for k := n; k >= 0; k-- {
+		g := dt[k]
 		if g == 0 {
 			continue
 		}
-		o := t.ops[k]
+		o := t.code[k]
 		switch o.code {
-		case opVar, opParam, opConst:
 		case opAdd:
 			d[o.a] += g
 			d[o.b] += g
@@ -148,22 +184,62 @@ func (t *tape) reverse(d, v []float64) {
 			d[o.a] += g
 			d[o.b] -= g
 		case opMul:
-			d[o.a] += g * v[o.b]
-			d[o.b] += g * v[o.a]
+			d[o.a] += g * w[o.b]
+			d[o.b] += g * w[o.a]
 		case opNeg:
 			d[o.a] -= g
 		case opDiv:
-			q := g / v[o.b]
+			q := g / w[o.b]
 			d[o.a] += q
-			d[o.b] -= q * v[k]
-		default:
-			da, db := partials(o, v, k)
-			d[o.a] += g * da
-			if o.code.binary() {
-				d[o.b] += g * db
+			d[o.b] -= q * vt[k]
+		case opSq:
+			d[o.a] += g * (2 * w[o.a])
+		case opPowC:
+			d[o.a] += g * powPartial(w[o.a], w[o.b], vt[k])
+		case opPow:
+			a, b, r := w[o.a], w[o.b], vt[k]
+			da := powPartial(a, b, r)
+			var db float64
+			if r != 0 {
+				db = r * math.Log(a) // NaN for a < 0: no real derivative
 			}
+			d[o.a] += g * da
+			d[o.b] += g * db
+		case opExp:
+			d[o.a] += g * vt[k]
+		case opLog:
+			d[o.a] += g * (1 / w[o.a])
+		case opLog10:
+			d[o.a] += g * (1 / (w[o.a] * math.Ln10))
+		case opSqrt:
+			d[o.a] += g * (0.5 / vt[k])
+		case opAbs:
+			da := 1.0
+			if w[o.a] < 0 {
+				da = -1
+			}
+			d[o.a] += g * da
+		case opMin, opMax:
+			da, db := 1.0, 0.0
+			if o.code == opMin && w[o.b] < w[o.a] || o.code == opMax && w[o.b] > w[o.a] {
+				da, db = 0, 1
+			}
+			d[o.a] += g * da
+			d[o.b] += g * db
+		default:
+			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 		}
 	}
+}
+
+// gather copies the values in w of the source ops 0..n-1 into v, so the
+// source form can be examined as it was before lowering.
+func (t *tape) gather(v, w []float64, n int) []float64 {
+	v = v[:n]
+	for k := range v {
+		v[k] = w[t.slot[k]]
+	}
+	return v
 }
 
 // partials returns the derivatives of op k with respect to its operands a and
