@@ -22,11 +22,17 @@ type Program struct {
 	pattern *Sparse // structure of dF/dx, Val nil
 	maxOps  int     // longest tape (source form), for describing errors
 	consts  []float64
-	size    int // length of the value space: nx + np + len(consts) + the most temporaries of any tape
-	xNames  []string
-	pNames  []string
-	xTyp    []float64 // typical magnitudes for finite-difference steps
-	pTyp    []float64
+
+	// Forward programs of the equations, outputs, defines and checks: the
+	// values of all tapes of the group, temporaries from w[base].
+	eqFwd, outFwd, defFwd, chkFwd []instr
+	base                          int
+	size                          int // length of w: base + the longest forward program
+	dsize                         int // length of d: nx + np + 2 + the longest reverse sweep
+	xNames                        []string
+	pNames                        []string
+	xTyp                          []float64 // typical magnitudes for finite-difference steps
+	pTyp                          []float64
 }
 
 // Compile compiles the equations, outputs, defines and checks of sys into
@@ -85,13 +91,22 @@ func Compile(sys *model.System) (*Program, error) {
 		}
 	}
 	prog.consts = pool.vals
-	prog.size = prog.nx + prog.np + len(pool.vals)
-	for _, ts := range all {
+	prog.base = prog.nx + prog.np + len(pool.vals)
+	prog.size = prog.base
+	prog.dsize = prog.nx + prog.np + 2
+	lower := func(ts []*tape) []instr {
+		l := newLowering(prog.nx, prog.np, &pool)
 		for _, t := range ts {
-			t.lower(prog.nx, prog.np, &pool)
-			prog.size = max(prog.size, int(t.base)+len(t.code))
+			l.tape(t)
+			prog.dsize = max(prog.dsize, int(t.dbase)+len(t.rev))
 		}
+		prog.size = max(prog.size, prog.base+len(l.code))
+		return l.code
 	}
+	prog.eqFwd = lower(prog.eqs)
+	prog.outFwd = lower(prog.outs)
+	prog.defFwd = lower(prog.defs)
+	prog.chkFwd = lower(prog.checks)
 
 	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
 	for i, t := range prog.eqs {
@@ -154,7 +169,7 @@ func (p *Program) NewEval() *Eval {
 	return &Eval{
 		prog: p,
 		w:    w,
-		d:    make([]float64, p.size),
+		d:    make([]float64, p.dsize),
 		vals: make([]float64, p.maxOps),
 		adj:  make([]float64, p.maxOps),
 		padj: make([]float64, p.np),
@@ -450,11 +465,13 @@ func (c *compiler) fold(code opcode, at model.Pos, what string, k float64, args 
 	mini.what = append(mini.what, what)
 	mini.root = int32(len(mini.ops) - 1)
 	pool.collect(mini)
-	mini.lower(0, 0, &pool)
-	w := make([]float64, int(mini.base)+len(mini.code))
+	l := newLowering(0, 0, &pool)
+	l.tape(mini)
+	w := make([]float64, int(l.base)+len(l.code))
 	copy(w, pool.vals)
-	if r := mini.forward(w); !finite(r) {
-		return ref{}, mini.valueFault(mini.gather(make([]float64, len(mini.ops)), w, len(mini.ops)))
+	forward(l.code, w, int(l.base))
+	if r := w[mini.out]; !finite(r) {
+		return ref{}, mini.valueFault(gather(make([]float64, len(mini.ops)), w, mini.slot, len(mini.ops)))
 	}
 	return ref{isConst: true, c: w[mini.out]}, nil
 }

@@ -16,8 +16,8 @@ import (
 // then only partly filled.
 type Eval struct {
 	prog   *Program
-	w      []float64 // value space: x, p, the constants, the temporaries of the current tape
-	d      []float64 // adjoints, laid out as w
+	w      []float64 // value space: x, p, the constants, the temporaries of a forward program
+	d      []float64 // adjoints: x, p, zero, sink, the temporaries of a tape
 	vals   []float64 // values of the source form of a tape, gathered to describe an error
 	adj    []float64 // adjoints of the source form, gathered to describe an error
 	padj   []float64 // parameter adjoints, scattered by index, kept zero between uses
@@ -50,12 +50,12 @@ func checkDims(what string, m *mat.Dense, r, c int) {
 	}
 }
 
-// value evaluates one tape on the value space and checks the result is
-// finite.
+// value returns the value of t after the forward program of its group,
+// checking it is finite.
 func (e *Eval) value(t *tape) (float64, error) {
-	r := t.forward(e.w)
+	r := e.w[t.out]
 	if !finite(r) {
-		return r, t.valueFault(t.gather(e.vals, e.w, len(t.ops)))
+		return r, t.valueFault(gather(e.vals, e.w, t.slot, len(t.ops)))
 	}
 	return r, nil
 }
@@ -63,11 +63,13 @@ func (e *Eval) value(t *tape) (float64, error) {
 // derivFault describes a derivative of t that is not finite, after value
 // and reverse.
 func (e *Eval) derivFault(t *tape, wrt string) *EvalError {
-	n := int(t.root) + 1
-	return t.derivFault(t.gather(e.vals, e.w, len(t.ops)), t.gather(e.adj, e.d, n), wrt)
+	return t.derivFault(gather(e.vals, e.w, t.slot, len(t.ops)), gather(e.adj, e.d, t.aslot, len(t.aslot)), wrt)
 }
 
-func (e *Eval) values(dst []float64, tapes []*tape) error {
+// values runs the forward program of a group and copies out the value of
+// each of its tapes.
+func (e *Eval) values(dst []float64, tapes []*tape, code []instr) error {
+	forward(code, e.w, e.prog.base)
 	for i, t := range tapes {
 		r, err := e.value(t)
 		if err != nil {
@@ -82,21 +84,21 @@ func (e *Eval) values(dst []float64, tapes []*tape) error {
 func (e *Eval) Residual(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.eqs))
-	return e.values(dst, e.prog.eqs)
+	return e.values(dst, e.prog.eqs, e.prog.eqFwd)
 }
 
 // Outputs sets dst[i] to the value of output i.
 func (e *Eval) Outputs(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.outs))
-	return e.values(dst, e.prog.outs)
+	return e.values(dst, e.prog.outs, e.prog.outFwd)
 }
 
 // Defines sets dst[i] to the value of define i.
 func (e *Eval) Defines(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.defs))
-	return e.values(dst, e.prog.defs)
+	return e.values(dst, e.prog.defs, e.prog.defFwd)
 }
 
 // Checks sets dst[i] to the value of the quantity of range check i
@@ -104,7 +106,7 @@ func (e *Eval) Defines(dst, x, p []float64) error {
 func (e *Eval) Checks(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.checks))
-	return e.values(dst, e.prog.checks)
+	return e.values(dst, e.prog.checks, e.prog.chkFwd)
 }
 
 // Jacobian fills dst.Val with dF/dx at (x, p), in the order of Pattern. dst
@@ -124,6 +126,7 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	if dst.Rows != pat.Rows || dst.Cols != pat.Cols || len(dst.Val) != len(pat.ColIdx) {
 		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
 	}
+	forward(e.prog.eqFwd, e.w, e.prog.base)
 	for i, t := range e.prog.eqs {
 		r, err := e.gradient(t)
 		if err != nil {
@@ -144,9 +147,10 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	return nil
 }
 
-// gradient runs the forward and reverse sweeps of t, leaving the adjoint of
-// every temporary and every leaf of t in e.d. The value must be finite; the
-// derivatives are checked by the caller, for the symbols it asked for.
+// gradient runs the reverse sweep of t after the forward program of its
+// group, leaving the adjoint of every temporary and every unknown and
+// parameter of t in e.d. The value must be finite; the derivatives are
+// checked by the caller, for the symbols it asked for.
 func (e *Eval) gradient(t *tape) (float64, error) {
 	r, err := e.value(t)
 	if err != nil {
@@ -161,7 +165,7 @@ func (e *Eval) gradient(t *tape) (float64, error) {
 func (e *Eval) ParamJacobian(dst *mat.Dense, x, p []float64, cols []int) error {
 	e.check(x, p)
 	checkDims("dst", dst, len(e.prog.eqs), len(cols))
-	return e.gradRows(nil, dst, e.prog.eqs, cols)
+	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, cols)
 }
 
 // OutputGradients sets dx to dy/dx (one row per output, one column per
@@ -173,12 +177,12 @@ func (e *Eval) OutputGradients(dx, dp *mat.Dense, x, p []float64, cols []int) er
 	if dp != nil {
 		checkDims("dp", dp, nout, len(cols))
 	}
-	return e.gradRows(dx, dp, e.prog.outs, cols)
+	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, cols)
 }
 
 // gradRows sets dx[i][j] = d tapes[i] / d x[j] when dx is not nil, and
 // dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil.
-func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, cols []int) error {
+func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, cols []int) error {
 	if dp != nil {
 		for _, c := range cols {
 			if c < 0 || c >= e.prog.np {
@@ -186,6 +190,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, cols []int) error {
 			}
 		}
 	}
+	forward(code, e.w, e.prog.base)
 	for i, t := range tapes {
 		if _, err := e.gradient(t); err != nil {
 			return err

@@ -49,18 +49,38 @@ type op struct {
 	c    float64
 }
 
-// instr is one instruction of the lowered form that Eval runs: arithmetic
-// only. Operands index the value space w of an Eval, laid out as
+// instr is one instruction of a forward program, the lowered form of the
+// arithmetic of a group of tapes (all equations, all outputs, ...) that Eval
+// runs. Operands index the value space w of an Eval, laid out as
 //
 //	w = [ x (nx) | p (np) | the program's constants | temporaries ]
 //
-// so loading an unknown, a parameter or a constant costs nothing: operand a
-// of an instruction is simply the index of x[j] in w. The value of
-// instruction k goes to temporary k, w[base+k]. For opPowC, b is the index of
-// the constant exponent; for other unary ops b equals a.
+// so loading an unknown, a parameter or a constant costs nothing. The value
+// of instruction k goes to temporary k, w[base+k]. For opPowC, b is the index
+// of the constant exponent; for other unary ops b equals a.
 type instr struct {
 	code opcode
 	a, b int32
+}
+
+// rinstr is one step of the reverse sweep of a tape: the adjoint of one
+// arithmetic op of the source form, in the order the source form's sweep
+// visits them (result to operands). Values come from w; adjoints live in a
+// second array d, laid out as
+//
+//	d = [ x (nx) | p (np) | zero | sink | the tape's temporaries ]
+//
+// where zero always holds 0 and sink receives the adjoints of constants,
+// which nobody reads. The adjoint of the op's own result is temporary j of d
+// for step j. An operand's contribution is added to d[sa] and stored in
+// d[ta]: sa is ta itself, or the zero slot where the step is the first (in
+// sweep order) to reach the operand, so a tape's adjoints need no clearing
+// and the sums are those of a cleared array, term by term.
+type rinstr struct {
+	code       opcode
+	va, vb, vk int32 // indices in w of the operands and of the result
+	ta, tb     int32 // adjoints of the operands (for unary ops tb is the sink)
+	sa, sb     int32 // adjoints the contributions are added to: ta/tb or the zero slot
 }
 
 // varRef ties a load instruction to the symbol it loads.
@@ -75,10 +95,12 @@ type varRef struct {
 // A tape has two forms. The source form (ops, at, what) is one op per
 // loaded symbol, constant and operation, each with the position of its
 // formula; it is what the compiler emits and what error messages describe.
-// The lowered form (code) is the arithmetic of the source form, in the same
-// order, on the value space of an Eval; it is what forward and reverse run.
-// slot maps each source op to the index of its value in w, so the values and
-// adjoints of the source form can be gathered when an error is described.
+// The lowered form is what Eval runs: the tape's values are computed by the
+// forward program of its group (instr), which computes a value shared by
+// several tapes of the group once, with the same operation on the same
+// operands; its adjoints by rev. slot and aslot map each source op to its
+// value in w and its adjoint in d, so the source form can be examined as it
+// would have been evaluated on its own when an error is described.
 type tape struct {
 	name string
 	kind string // "equation", "output", "define", "check"
@@ -91,19 +113,20 @@ type tape struct {
 	vars   []varRef // unknowns loaded, sorted by index: the row's pattern
 	params []varRef // parameters loaded, sorted by index
 
-	code   []instr // lowered form
-	base   int32   // index in w of temporary 0
-	out    int32   // index in w of the result
-	slot   []int32 // index in w of the value of each source op
-	leaves []int32 // indices in w of the unknowns, parameters and constants loaded
+	out     int32    // index in w of the result
+	rev     []rinstr // reverse sweep
+	dbase   int32    // index in d of the adjoint of rev[0]'s result
+	rootAdj int32    // index in d of the result's adjoint
+	zero    []int32  // adjoints in d to clear before the sweep: leaves no step reaches
+	slot    []int32  // index in w of the value of each source op
+	aslot   []int32  // index in d of the adjoint of each source op up to root
 }
 
-// forward evaluates the lowered tape on the value space w (x, p and the
-// constants in place, room for the temporaries) and returns the result. The
-// operations and their order are those of the source form.
-func (t *tape) forward(w []float64) float64 {
-	tmp := w[t.base : int(t.base)+len(t.code)]
-	for k, o := range t.code {
+// forward runs a forward program on the value space w (x, p and the
+// constants in place), filling the temporaries from w[base].
+func forward(code []instr, w []float64, base int) {
+	tmp := w[base : base+len(code)]
+	for k, o := range code {
 		switch o.code {
 		case opAdd:
 			tmp[k] = w[o.a] + w[o.b]
@@ -118,9 +141,7 @@ func (t *tape) forward(w []float64) float64 {
 		case opSq:
 			a := w[o.a]
 			tmp[k] = a * a
-		case opPowC:
-			tmp[k] = math.Pow(w[o.a], w[o.b])
-		case opPow:
+		case opPowC, opPow:
 			tmp[k] = math.Pow(w[o.a], w[o.b])
 		case opExp:
 			tmp[k] = math.Exp(w[o.a])
@@ -148,96 +169,93 @@ func (t *tape) forward(w []float64) float64 {
 			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 		}
 	}
-	return w[t.out]
 }
 
-// reverse runs the adjoint sweep after forward: d (laid out as w) receives
-// the derivative of the result with respect to every temporary and every
-// leaf the tape loads; w holds the values of the forward sweep. Adjoints are
-// accumulated in the order of the source form's sweep, operand a before
-// operand b, so a derivative summed over several uses is the same number.
-// The adjoints of leaves the tape does not load are left alone.
+// reverse runs the adjoint sweep of t after the forward program of its
+// group: d receives the derivative of the result with respect to every
+// temporary and every unknown and parameter t loads; w holds the values.
+// Each adjoint is accumulated term by term in the order of the source
+// form's sweep, operand a before operand b, starting from 0, and a step
+// whose own adjoint is 0 is skipped, so every derivative is the same number
+// the source form gives. Adjoints of symbols t does not load are left alone.
 func (t *tape) reverse(d, w []float64) {
-	for _, l := range t.leaves {
-		d[l] = 0
+	for _, z := range t.zero {
+		d[z] = 0
 	}
-	n := int(t.out) - int(t.base) // temporary holding the result
-	if n < 0 {
-		d[t.out] = 1 // the result is a leaf
-		return
-	}
-	dt := d[t.base : int(t.base)+n+1]
-	vt := w[t.base : int(t.base)+n+1]
-	clear(dt)
-	dt[n] = 1
-	for k := n; k >= 0; k-- {
-		g := dt[k]
+	d[t.rootAdj] = 1
+	dt := d[t.dbase : int(t.dbase)+len(t.rev)]
+	for j := range t.rev {
+		o := &t.rev[j]
+		g := dt[j]
 		if g == 0 {
+			// Skipped: an operand reached first here starts from 0.
+			d[o.ta] = d[o.sa]
+			d[o.tb] = d[o.sb]
 			continue
 		}
-		o := t.code[k]
 		switch o.code {
 		case opAdd:
-			d[o.a] += g
-			d[o.b] += g
+			d[o.ta] = d[o.sa] + g
+			d[o.tb] = d[o.sb] + g
 		case opSub:
-			d[o.a] += g
-			d[o.b] -= g
+			d[o.ta] = d[o.sa] + g
+			d[o.tb] = d[o.sb] - g
 		case opMul:
-			d[o.a] += g * w[o.b]
-			d[o.b] += g * w[o.a]
+			d[o.ta] = d[o.sa] + g*w[o.vb]
+			d[o.tb] = d[o.sb] + g*w[o.va]
 		case opNeg:
-			d[o.a] -= g
+			d[o.ta] = d[o.sa] - g
 		case opDiv:
-			q := g / w[o.b]
-			d[o.a] += q
-			d[o.b] -= q * vt[k]
+			q := g / w[o.vb]
+			d[o.ta] = d[o.sa] + q
+			d[o.tb] = d[o.sb] - q*w[o.vk]
 		case opSq:
-			d[o.a] += g * (2 * w[o.a])
+			d[o.ta] = d[o.sa] + g*(2*w[o.va])
 		case opPowC:
-			d[o.a] += g * powPartial(w[o.a], w[o.b], vt[k])
+			d[o.ta] = d[o.sa] + g*powPartial(w[o.va], w[o.vb], w[o.vk])
 		case opPow:
-			a, b, r := w[o.a], w[o.b], vt[k]
+			a, b, r := w[o.va], w[o.vb], w[o.vk]
 			da := powPartial(a, b, r)
 			var db float64
 			if r != 0 {
 				db = r * math.Log(a) // NaN for a < 0: no real derivative
 			}
-			d[o.a] += g * da
-			d[o.b] += g * db
+			d[o.ta] = d[o.sa] + g*da
+			d[o.tb] = d[o.sb] + g*db
 		case opExp:
-			d[o.a] += g * vt[k]
+			d[o.ta] = d[o.sa] + g*w[o.vk]
 		case opLog:
-			d[o.a] += g * (1 / w[o.a])
+			d[o.ta] = d[o.sa] + g*(1/w[o.va])
 		case opLog10:
-			d[o.a] += g * (1 / (w[o.a] * math.Ln10))
+			d[o.ta] = d[o.sa] + g*(1/(w[o.va]*math.Ln10))
 		case opSqrt:
-			d[o.a] += g * (0.5 / vt[k])
+			d[o.ta] = d[o.sa] + g*(0.5/w[o.vk])
 		case opAbs:
 			da := 1.0
-			if w[o.a] < 0 {
+			if w[o.va] < 0 {
 				da = -1
 			}
-			d[o.a] += g * da
+			d[o.ta] = d[o.sa] + g*da
 		case opMin, opMax:
 			da, db := 1.0, 0.0
-			if o.code == opMin && w[o.b] < w[o.a] || o.code == opMax && w[o.b] > w[o.a] {
+			if o.code == opMin && w[o.vb] < w[o.va] || o.code == opMax && w[o.vb] > w[o.va] {
 				da, db = 0, 1
 			}
-			d[o.a] += g * da
-			d[o.b] += g * db
+			d[o.ta] = d[o.sa] + g*da
+			d[o.tb] = d[o.sb] + g*db
 		default:
 			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 		}
 	}
 }
 
-// gather copies the values in w of the source ops 0..n-1 into v, so the
-// source form can be examined as it was before lowering.
-func (t *tape) gather(v, w []float64, n int) []float64 {
+// gather copies into v (len(v) >= n) the numbers of the source ops 0..n-1
+// found in z at the indices idx: their values (idx = slot, z = w) or their
+// adjoints (idx = aslot, z = d).
+func gather(v, z []float64, idx []int32, n int) []float64 {
 	v = v[:n]
 	for k := range v {
-		v[k] = w[t.slot[k]]
+		v[k] = z[idx[k]]
 	}
 	return v
 }
