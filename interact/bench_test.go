@@ -7,16 +7,30 @@ import (
 
 var analysisSink *Analysis
 
-func analyzeBench(b *testing.B, n int) {
+// benchGains is the gain set the benchmarks analyse: a seeded random n×n K
+// made diagonally dominant, with nd random disturbance columns.
+func benchGains(n, nd int) *GainSet {
 	rnd := rand.New(rand.NewPCG(uint64(n), 1))
 	k := randMatrix(rnd, n, n)
 	for i := 0; i < n; i++ {
 		k.Set(i, i, k.At(i, i)+2)
 	}
 	g := gainSet(k, names4(n, "y"), names4(n, "u"))
+	if nd > 0 {
+		g.Kd = randMatrix(rnd, n, nd)
+		g.Disturbances = make([]Signal, nd)
+		for d, name := range names4(nd, "d") {
+			g.Disturbances[d] = Signal{Name: name, Span: 1, Nominal: 1}
+		}
+	}
+	return g
+}
+
+func analyzeBench(b *testing.B, n, nd int, opts *Options) {
+	g := benchGains(n, nd)
 	b.ReportAllocs()
 	for b.Loop() {
-		a, err := Analyze(g, nil)
+		a, err := Analyze(g, opts)
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -24,6 +38,16 @@ func analyzeBench(b *testing.B, n int) {
 	}
 }
 
-func BenchmarkAnalyze2(b *testing.B) { analyzeBench(b, 2) }
-func BenchmarkAnalyze4(b *testing.B) { analyzeBench(b, 4) }
-func BenchmarkAnalyze8(b *testing.B) { analyzeBench(b, 8) }
+// briefOpts are the options of an envelope sweep.
+var briefOpts = &Options{Brief: true, MaxPairings: -1}
+
+func BenchmarkAnalyze2(b *testing.B) { analyzeBench(b, 2, 0, nil) }
+func BenchmarkAnalyze3(b *testing.B) { analyzeBench(b, 3, 0, nil) }
+func BenchmarkAnalyze4(b *testing.B) { analyzeBench(b, 4, 0, nil) }
+func BenchmarkAnalyze8(b *testing.B) { analyzeBench(b, 8, 0, nil) }
+
+func BenchmarkAnalyzeBrief2(b *testing.B)   { analyzeBench(b, 2, 0, briefOpts) }
+func BenchmarkAnalyzeBrief3(b *testing.B)   { analyzeBench(b, 3, 0, briefOpts) }
+func BenchmarkAnalyzeBrief4(b *testing.B)   { analyzeBench(b, 4, 0, briefOpts) }
+func BenchmarkAnalyzeBrief2Kd(b *testing.B) { analyzeBench(b, 2, 2, briefOpts) }
+func BenchmarkAnalyzeBrief4Kd(b *testing.B) { analyzeBench(b, 4, 2, briefOpts) }

@@ -53,6 +53,16 @@ func paramJacobianBench(b *testing.B, sys *model.System) {
 	}
 }
 
+func outputGradientsBench(b *testing.B, sys *model.System) {
+	prog, e, x, p := benchSetup(b, sys)
+	dx := mat.NewDense(prog.NumOutputs(), prog.NumUnknowns(), nil)
+	dp := mat.NewDense(prog.NumOutputs(), len(sys.Inputs), nil)
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.OutputGradients(dx, dp, x, p, sys.Inputs)
+	}
+}
+
 func compileBench(b *testing.B, sys *model.System) {
 	b.ReportAllocs()
 	for b.Loop() {
@@ -65,6 +75,9 @@ func BenchmarkJacobianColumn41(b *testing.B)         { jacobianBench(b, binaryCo
 func BenchmarkResidualJacobianColumn41(b *testing.B) { residualJacobianBench(b, binaryColumn(41, 21)) }
 func BenchmarkParamJacobianColumn41(b *testing.B)    { paramJacobianBench(b, binaryColumn(41, 21)) }
 func BenchmarkCompileColumn41(b *testing.B)          { compileBench(b, binaryColumn(41, 21)) }
+func BenchmarkOutputGradientsColumn41(b *testing.B) {
+	outputGradientsBench(b, binaryColumn(41, 21))
+}
 
 func BenchmarkResidualColumn200x4(b *testing.B) { residualBench(b, multiColumn(200, 100)) }
 func BenchmarkJacobianColumn200x4(b *testing.B) { jacobianBench(b, multiColumn(200, 100)) }
@@ -73,3 +86,6 @@ func BenchmarkResidualJacobianColumn200x4(b *testing.B) {
 }
 func BenchmarkParamJacobianColumn200x4(b *testing.B) { paramJacobianBench(b, multiColumn(200, 100)) }
 func BenchmarkCompileColumn200x4(b *testing.B)       { compileBench(b, multiColumn(200, 100)) }
+func BenchmarkOutputGradientsColumn200x4(b *testing.B) {
+	outputGradientsBench(b, multiColumn(200, 100))
+}

@@ -20,11 +20,19 @@ type Program struct {
 	defs    []*tape
 	checks  []*tape
 	pattern *Sparse // structure of dF/dx, Val nil
-	maxOps  int     // longest tape, for the work buffers
-	xNames  []string
-	pNames  []string
-	xTyp    []float64 // typical magnitudes for finite-difference steps
-	pTyp    []float64
+	maxOps  int     // longest tape (source form), for describing errors
+	consts  []float64
+
+	// Forward programs of the equations, outputs, defines and checks: the
+	// values of all tapes of the group, temporaries from w[base].
+	eqFwd, outFwd, defFwd, chkFwd []instr
+	base                          int
+	size                          int // length of w: base + the longest forward program
+	dsize                         int // length of d: nx + np + 2 + the longest reverse sweep
+	xNames                        []string
+	pNames                        []string
+	xTyp                          []float64 // typical magnitudes for finite-difference steps
+	pTyp                          []float64
 }
 
 // Compile compiles the equations, outputs, defines and checks of sys into
@@ -74,6 +82,31 @@ func Compile(sys *model.System) (*Program, error) {
 	if len(errs) > 0 {
 		return nil, errors.Join(errs...)
 	}
+
+	all := [][]*tape{prog.eqs, prog.outs, prog.defs, prog.checks}
+	var pool constPool
+	for _, ts := range all {
+		for _, t := range ts {
+			pool.collect(t)
+		}
+	}
+	prog.consts = pool.vals
+	prog.base = prog.nx + prog.np + len(pool.vals)
+	prog.size = prog.base
+	prog.dsize = prog.nx + prog.np + 2
+	lower := func(ts []*tape) []instr {
+		l := newLowering(prog.nx, prog.np, &pool)
+		for _, t := range ts {
+			l.tape(t)
+			prog.dsize = max(prog.dsize, int(t.dbase)+len(t.rev))
+		}
+		prog.size = max(prog.size, prog.base+len(l.code))
+		return l.code
+	}
+	prog.eqFwd = lower(prog.eqs)
+	prog.outFwd = lower(prog.outs)
+	prog.defFwd = lower(prog.defs)
+	prog.chkFwd = lower(prog.checks)
 
 	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
 	for i, t := range prog.eqs {
@@ -131,8 +164,12 @@ func (p *Program) NewJacobian() *Sparse { return p.pattern.clone(true) }
 
 // NewEval returns a new evaluator with its own work buffers.
 func (p *Program) NewEval() *Eval {
+	w := make([]float64, p.size)
+	copy(w[p.nx+p.np:], p.consts)
 	return &Eval{
 		prog: p,
+		w:    w,
+		d:    make([]float64, p.dsize),
 		vals: make([]float64, p.maxOps),
 		adj:  make([]float64, p.maxOps),
 		padj: make([]float64, p.np),
@@ -417,6 +454,7 @@ func identity(code opcode, args []ref) (ref, bool) {
 // tapes, so folding and evaluation cannot disagree.
 func (c *compiler) fold(code opcode, at model.Pos, what string, k float64, args []ref) (ref, error) {
 	mini := &tape{name: c.t.name, kind: c.t.kind}
+	var pool constPool
 	for _, a := range args {
 		mini.ops = append(mini.ops, op{code: opConst, c: a.c})
 		mini.at = append(mini.at, at)
@@ -426,11 +464,16 @@ func (c *compiler) fold(code opcode, at model.Pos, what string, k float64, args 
 	mini.at = append(mini.at, at)
 	mini.what = append(mini.what, what)
 	mini.root = int32(len(mini.ops) - 1)
-	v := make([]float64, len(mini.ops))
-	if r := mini.forward(v, nil, nil); !finite(r) {
-		return ref{}, mini.valueFault(v)
+	pool.collect(mini)
+	l := newLowering(0, 0, &pool)
+	l.tape(mini)
+	w := make([]float64, int(l.base)+len(l.code))
+	copy(w, pool.vals)
+	forward(l.code, w, int(l.base))
+	if r := w[mini.out]; !finite(r) {
+		return ref{}, mini.valueFault(gather(make([]float64, len(mini.ops)), w, mini.slot, len(mini.ops)))
 	}
-	return ref{isConst: true, c: v[mini.root]}, nil
+	return ref{isConst: true, c: w[mini.out]}, nil
 }
 
 func (c *compiler) errAt(at model.Pos, what, msg string) *EvalError {

@@ -16,20 +16,26 @@ import (
 // then only partly filled.
 type Eval struct {
 	prog   *Program
-	vals   []float64 // forward values of the current tape
-	adj    []float64 // adjoints of the current tape
+	w      []float64 // value space: x, p, the constants, the temporaries of a forward program
+	d      []float64 // adjoints: x, p, zero, sink, the temporaries of a tape
+	vals   []float64 // values of the source form of a tape, gathered to describe an error
+	adj    []float64 // adjoints of the source form, gathered to describe an error
 	padj   []float64 // parameter adjoints, scattered by index, kept zero between uses
 	xw, pw []float64 // perturbed copies of x and p for finite differences
 	f1, f2 []float64 // residuals for finite differences
 }
 
+// check checks the lengths of x and p and copies them into the value space.
 func (e *Eval) check(x, p []float64) {
-	if len(x) != e.prog.nx {
-		panic(fmt.Sprintf("jacobian: len(x) = %d, want %d", len(x), e.prog.nx))
+	nx, np := e.prog.nx, e.prog.np
+	if len(x) != nx {
+		panic(fmt.Sprintf("jacobian: len(x) = %d, want %d", len(x), nx))
 	}
-	if len(p) != e.prog.np {
-		panic(fmt.Sprintf("jacobian: len(p) = %d, want %d", len(p), e.prog.np))
+	if len(p) != np {
+		panic(fmt.Sprintf("jacobian: len(p) = %d, want %d", len(p), np))
 	}
+	copy(e.w[:nx], x)
+	copy(e.w[nx:nx+np], p)
 }
 
 func checkLen(what string, got, want int) {
@@ -44,18 +50,28 @@ func checkDims(what string, m *mat.Dense, r, c int) {
 	}
 }
 
-// value evaluates one tape and checks the result is finite.
-func (e *Eval) value(t *tape, x, p []float64) (float64, error) {
-	r := t.forward(e.vals, x, p)
+// value returns the value of t after the forward program of its group,
+// checking it is finite.
+func (e *Eval) value(t *tape) (float64, error) {
+	r := e.w[t.out]
 	if !finite(r) {
-		return r, t.valueFault(e.vals)
+		return r, t.valueFault(gather(e.vals, e.w, t.slot, len(t.ops)))
 	}
 	return r, nil
 }
 
-func (e *Eval) values(dst []float64, tapes []*tape, x, p []float64) error {
+// derivFault describes a derivative of t that is not finite, after value
+// and reverse.
+func (e *Eval) derivFault(t *tape, wrt string) *EvalError {
+	return t.derivFault(gather(e.vals, e.w, t.slot, len(t.ops)), gather(e.adj, e.d, t.aslot, len(t.aslot)), wrt)
+}
+
+// values runs the forward program of a group and copies out the value of
+// each of its tapes.
+func (e *Eval) values(dst []float64, tapes []*tape, code []instr) error {
+	forward(code, e.w, e.prog.base)
 	for i, t := range tapes {
-		r, err := e.value(t, x, p)
+		r, err := e.value(t)
 		if err != nil {
 			return err
 		}
@@ -68,21 +84,21 @@ func (e *Eval) values(dst []float64, tapes []*tape, x, p []float64) error {
 func (e *Eval) Residual(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.eqs))
-	return e.values(dst, e.prog.eqs, x, p)
+	return e.values(dst, e.prog.eqs, e.prog.eqFwd)
 }
 
 // Outputs sets dst[i] to the value of output i.
 func (e *Eval) Outputs(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.outs))
-	return e.values(dst, e.prog.outs, x, p)
+	return e.values(dst, e.prog.outs, e.prog.outFwd)
 }
 
 // Defines sets dst[i] to the value of define i.
 func (e *Eval) Defines(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.defs))
-	return e.values(dst, e.prog.defs, x, p)
+	return e.values(dst, e.prog.defs, e.prog.defFwd)
 }
 
 // Checks sets dst[i] to the value of the quantity of range check i
@@ -90,7 +106,7 @@ func (e *Eval) Defines(dst, x, p []float64) error {
 func (e *Eval) Checks(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.checks))
-	return e.values(dst, e.prog.checks, x, p)
+	return e.values(dst, e.prog.checks, e.prog.chkFwd)
 }
 
 // Jacobian fills dst.Val with dF/dx at (x, p), in the order of Pattern. dst
@@ -110,8 +126,9 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	if dst.Rows != pat.Rows || dst.Cols != pat.Cols || len(dst.Val) != len(pat.ColIdx) {
 		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
 	}
+	forward(e.prog.eqFwd, e.w, e.prog.base)
 	for i, t := range e.prog.eqs {
-		r, err := e.gradient(t, x, p)
+		r, err := e.gradient(t)
 		if err != nil {
 			return err
 		}
@@ -120,9 +137,9 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		}
 		row := dst.Val[pat.RowPtr[i]:pat.RowPtr[i+1]]
 		for k, vr := range t.vars {
-			d := e.adj[vr.slot]
+			d := e.d[vr.index]
 			if !finite(d) {
-				return t.derivFault(e.vals, e.adj, e.prog.xNames[vr.index])
+				return e.derivFault(t, e.prog.xNames[vr.index])
 			}
 			row[k] = d
 		}
@@ -130,15 +147,16 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	return nil
 }
 
-// gradient runs the forward and reverse sweeps of t, leaving the adjoint of
-// every slot in e.adj. The value must be finite; the derivatives are checked
-// by the caller, for the symbols it asked for.
-func (e *Eval) gradient(t *tape, x, p []float64) (float64, error) {
-	r, err := e.value(t, x, p)
+// gradient runs the reverse sweep of t after the forward program of its
+// group, leaving the adjoint of every temporary and every unknown and
+// parameter of t in e.d. The value must be finite; the derivatives are
+// checked by the caller, for the symbols it asked for.
+func (e *Eval) gradient(t *tape) (float64, error) {
+	r, err := e.value(t)
 	if err != nil {
 		return r, err
 	}
-	t.reverse(e.adj, e.vals)
+	t.reverse(e.d, e.w)
 	return r, nil
 }
 
@@ -147,7 +165,7 @@ func (e *Eval) gradient(t *tape, x, p []float64) (float64, error) {
 func (e *Eval) ParamJacobian(dst *mat.Dense, x, p []float64, cols []int) error {
 	e.check(x, p)
 	checkDims("dst", dst, len(e.prog.eqs), len(cols))
-	return e.gradRows(nil, dst, e.prog.eqs, x, p, cols)
+	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, cols)
 }
 
 // OutputGradients sets dx to dy/dx (one row per output, one column per
@@ -159,12 +177,12 @@ func (e *Eval) OutputGradients(dx, dp *mat.Dense, x, p []float64, cols []int) er
 	if dp != nil {
 		checkDims("dp", dp, nout, len(cols))
 	}
-	return e.gradRows(dx, dp, e.prog.outs, x, p, cols)
+	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, cols)
 }
 
 // gradRows sets dx[i][j] = d tapes[i] / d x[j] when dx is not nil, and
 // dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil.
-func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, x, p []float64, cols []int) error {
+func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, cols []int) error {
 	if dp != nil {
 		for _, c := range cols {
 			if c < 0 || c >= e.prog.np {
@@ -172,24 +190,25 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, x, p []float64, cols [
 			}
 		}
 	}
+	forward(code, e.w, e.prog.base)
 	for i, t := range tapes {
-		if _, err := e.gradient(t, x, p); err != nil {
+		if _, err := e.gradient(t); err != nil {
 			return err
 		}
 		if dx != nil {
 			row := dx.RawRowView(i)
 			clear(row)
 			for _, vr := range t.vars {
-				d := e.adj[vr.slot]
+				d := e.d[vr.index]
 				if !finite(d) {
-					return t.derivFault(e.vals, e.adj, e.prog.xNames[vr.index])
+					return e.derivFault(t, e.prog.xNames[vr.index])
 				}
 				row[vr.index] = d
 			}
 		}
 		if dp != nil {
 			for _, vr := range t.params {
-				e.padj[vr.index] = e.adj[vr.slot]
+				e.padj[vr.index] = e.d[e.prog.nx+int(vr.index)]
 			}
 			var bad int32 = -1
 			for k, c := range cols {
@@ -203,7 +222,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, x, p []float64, cols [
 				e.padj[vr.index] = 0
 			}
 			if bad >= 0 {
-				return t.derivFault(e.vals, e.adj, e.prog.pNames[bad])
+				return e.derivFault(t, e.prog.pNames[bad])
 			}
 		}
 	}

@@ -40,21 +40,67 @@ func (c opcode) binary() bool {
 	return false
 }
 
-// op is one instruction. For opVar and opParam, a is the index into x or p.
+// op is one instruction of the source form of a tape, as the compiler emits
+// it and as error messages describe it. For opVar and opParam, a is the
+// index into x or p.
 type op struct {
 	code opcode
 	a, b int32
 	c    float64
 }
 
+// instr is one instruction of a forward program, the lowered form of the
+// arithmetic of a group of tapes (all equations, all outputs, ...) that Eval
+// runs. Operands index the value space w of an Eval, laid out as
+//
+//	w = [ x (nx) | p (np) | the program's constants | temporaries ]
+//
+// so loading an unknown, a parameter or a constant costs nothing. The value
+// of instruction k goes to temporary k, w[base+k]. For opPowC, b is the index
+// of the constant exponent; for other unary ops b equals a.
+type instr struct {
+	code opcode
+	a, b int32
+}
+
+// rinstr is one step of the reverse sweep of a tape: the adjoint of one
+// arithmetic op of the source form, in the order the source form's sweep
+// visits them (result to operands). Values come from w; adjoints live in a
+// second array d, laid out as
+//
+//	d = [ x (nx) | p (np) | zero | sink | the tape's temporaries ]
+//
+// where zero always holds 0 and sink receives the adjoints of constants,
+// which nobody reads. The adjoint of the op's own result is temporary j of d
+// for step j. An operand's contribution is added to d[sa] and stored in
+// d[ta]: sa is ta itself, or the zero slot where the step is the first (in
+// sweep order) to reach the operand, so a tape's adjoints need no clearing
+// and the sums are those of a cleared array, term by term.
+type rinstr struct {
+	code       opcode
+	va, vb, vk int32 // indices in w of the operands and of the result
+	ta, tb     int32 // adjoints of the operands (for unary ops tb is the sink)
+	sa, sb     int32 // adjoints the contributions are added to: ta/tb or the zero slot
+}
+
 // varRef ties a load instruction to the symbol it loads.
 type varRef struct {
-	slot  int32 // the load instruction
+	slot  int32 // the load instruction (source form)
 	index int32 // index into x (or p)
 }
 
 // tape computes one scalar: an equation's residual, an output, a define or
 // the quantity of a range check.
+//
+// A tape has two forms. The source form (ops, at, what) is one op per
+// loaded symbol, constant and operation, each with the position of its
+// formula; it is what the compiler emits and what error messages describe.
+// The lowered form is what Eval runs: the tape's values are computed by the
+// forward program of its group (instr), which computes a value shared by
+// several tapes of the group once, with the same operation on the same
+// operands; its adjoints by rev. slot and aslot map each source op to its
+// value in w and its adjoint in d, so the source form can be examined as it
+// would have been evaluated on its own when an error is described.
 type tape struct {
 	name string
 	kind string // "equation", "output", "define", "check"
@@ -66,104 +112,152 @@ type tape struct {
 
 	vars   []varRef // unknowns loaded, sorted by index: the row's pattern
 	params []varRef // parameters loaded, sorted by index
+
+	out     int32    // index in w of the result
+	rev     []rinstr // reverse sweep
+	dbase   int32    // index in d of the adjoint of rev[0]'s result
+	rootAdj int32    // index in d of the result's adjoint
+	zero    []int32  // adjoints in d to clear before the sweep: leaves no step reaches
+	slot    []int32  // index in w of the value of each source op
+	aslot   []int32  // index in d of the adjoint of each source op up to root
 }
 
-// forward evaluates the tape into v (len(v) >= len(t.ops)) and returns the
-// result.
-func (t *tape) forward(v, x, p []float64) float64 {
-	v = v[:len(t.ops)]
-	for k, o := range t.ops {
+// forward runs a forward program on the value space w (x, p and the
+// constants in place), filling the temporaries from w[base].
+func forward(code []instr, w []float64, base int) {
+	tmp := w[base : base+len(code)]
+	for k, o := range code {
 		switch o.code {
-		case opVar:
-			v[k] = x[o.a]
-		case opParam:
-			v[k] = p[o.a]
-		case opConst:
-			v[k] = o.c
 		case opAdd:
-			v[k] = v[o.a] + v[o.b]
+			tmp[k] = w[o.a] + w[o.b]
 		case opSub:
-			v[k] = v[o.a] - v[o.b]
+			tmp[k] = w[o.a] - w[o.b]
 		case opMul:
-			v[k] = v[o.a] * v[o.b]
+			tmp[k] = w[o.a] * w[o.b]
 		case opDiv:
-			v[k] = v[o.a] / v[o.b]
+			tmp[k] = w[o.a] / w[o.b]
 		case opNeg:
-			v[k] = -v[o.a]
+			tmp[k] = -w[o.a]
 		case opSq:
-			a := v[o.a]
-			v[k] = a * a
-		case opPowC:
-			v[k] = math.Pow(v[o.a], o.c)
-		case opPow:
-			v[k] = math.Pow(v[o.a], v[o.b])
+			a := w[o.a]
+			tmp[k] = a * a
+		case opPowC, opPow:
+			tmp[k] = math.Pow(w[o.a], w[o.b])
 		case opExp:
-			v[k] = math.Exp(v[o.a])
+			tmp[k] = math.Exp(w[o.a])
 		case opLog:
-			v[k] = math.Log(v[o.a])
+			tmp[k] = math.Log(w[o.a])
 		case opLog10:
-			v[k] = math.Log10(v[o.a])
+			tmp[k] = math.Log10(w[o.a])
 		case opSqrt:
-			v[k] = math.Sqrt(v[o.a])
+			tmp[k] = math.Sqrt(w[o.a])
 		case opAbs:
-			v[k] = math.Abs(v[o.a])
+			tmp[k] = math.Abs(w[o.a])
 		case opMin:
-			a, b := v[o.a], v[o.b]
+			a, b := w[o.a], w[o.b]
 			if b < a || b != b {
 				a = b
 			}
-			v[k] = a
+			tmp[k] = a
 		case opMax:
-			a, b := v[o.a], v[o.b]
+			a, b := w[o.a], w[o.b]
 			if b > a || b != b {
 				a = b
 			}
-			v[k] = a
+			tmp[k] = a
 		default:
 			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 		}
 	}
-	return v[t.root]
 }
 
-// reverse runs the adjoint sweep after forward: d[k] becomes the derivative
-// of the result with respect to the value of slot k. v holds the values of
-// the forward sweep.
-func (t *tape) reverse(d, v []float64) {
-	d = d[:t.root+1]
-	clear(d)
-	d[t.root] = 1
-	for k := int(t.root); k >= 0; k-- {
-		g := d[k]
+// reverse runs the adjoint sweep of t after the forward program of its
+// group: d receives the derivative of the result with respect to every
+// temporary and every unknown and parameter t loads; w holds the values.
+// Each adjoint is accumulated term by term in the order of the source
+// form's sweep, operand a before operand b, starting from 0, and a step
+// whose own adjoint is 0 is skipped, so every derivative is the same number
+// the source form gives. Adjoints of symbols t does not load are left alone.
+func (t *tape) reverse(d, w []float64) {
+	for _, z := range t.zero {
+		d[z] = 0
+	}
+	d[t.rootAdj] = 1
+	dt := d[t.dbase : int(t.dbase)+len(t.rev)]
+	for j := range t.rev {
+		o := &t.rev[j]
+		g := dt[j]
 		if g == 0 {
+			// Skipped: an operand reached first here starts from 0.
+			d[o.ta] = d[o.sa]
+			d[o.tb] = d[o.sb]
 			continue
 		}
-		o := t.ops[k]
 		switch o.code {
-		case opVar, opParam, opConst:
 		case opAdd:
-			d[o.a] += g
-			d[o.b] += g
+			d[o.ta] = d[o.sa] + g
+			d[o.tb] = d[o.sb] + g
 		case opSub:
-			d[o.a] += g
-			d[o.b] -= g
+			d[o.ta] = d[o.sa] + g
+			d[o.tb] = d[o.sb] - g
 		case opMul:
-			d[o.a] += g * v[o.b]
-			d[o.b] += g * v[o.a]
+			d[o.ta] = d[o.sa] + g*w[o.vb]
+			d[o.tb] = d[o.sb] + g*w[o.va]
 		case opNeg:
-			d[o.a] -= g
+			d[o.ta] = d[o.sa] - g
 		case opDiv:
-			q := g / v[o.b]
-			d[o.a] += q
-			d[o.b] -= q * v[k]
-		default:
-			da, db := partials(o, v, k)
-			d[o.a] += g * da
-			if o.code.binary() {
-				d[o.b] += g * db
+			q := g / w[o.vb]
+			d[o.ta] = d[o.sa] + q
+			d[o.tb] = d[o.sb] - q*w[o.vk]
+		case opSq:
+			d[o.ta] = d[o.sa] + g*(2*w[o.va])
+		case opPowC:
+			d[o.ta] = d[o.sa] + g*powPartial(w[o.va], w[o.vb], w[o.vk])
+		case opPow:
+			a, b, r := w[o.va], w[o.vb], w[o.vk]
+			da := powPartial(a, b, r)
+			var db float64
+			if r != 0 {
+				db = r * math.Log(a) // NaN for a < 0: no real derivative
 			}
+			d[o.ta] = d[o.sa] + g*da
+			d[o.tb] = d[o.sb] + g*db
+		case opExp:
+			d[o.ta] = d[o.sa] + g*w[o.vk]
+		case opLog:
+			d[o.ta] = d[o.sa] + g*(1/w[o.va])
+		case opLog10:
+			d[o.ta] = d[o.sa] + g*(1/(w[o.va]*math.Ln10))
+		case opSqrt:
+			d[o.ta] = d[o.sa] + g*(0.5/w[o.vk])
+		case opAbs:
+			da := 1.0
+			if w[o.va] < 0 {
+				da = -1
+			}
+			d[o.ta] = d[o.sa] + g*da
+		case opMin, opMax:
+			da, db := 1.0, 0.0
+			if o.code == opMin && w[o.vb] < w[o.va] || o.code == opMax && w[o.vb] > w[o.va] {
+				da, db = 0, 1
+			}
+			d[o.ta] = d[o.sa] + g*da
+			d[o.tb] = d[o.sb] + g*db
+		default:
+			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 		}
 	}
+}
+
+// gather copies into v (len(v) >= n) the numbers of the source ops 0..n-1
+// found in z at the indices idx: their values (idx = slot, z = w) or their
+// adjoints (idx = aslot, z = d).
+func gather(v, z []float64, idx []int32, n int) []float64 {
+	v = v[:n]
+	for k := range v {
+		v[k] = z[idx[k]]
+	}
+	return v
 }
 
 // partials returns the derivatives of op k with respect to its operands a and

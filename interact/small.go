@@ -1,0 +1,419 @@
+package interact
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/floats"
+	"gonum.org/v1/gonum/lapack"
+	"gonum.org/v1/gonum/lapack/gonum"
+	"gonum.org/v1/gonum/lapack/lapack64"
+	"gonum.org/v1/gonum/mat"
+)
+
+// This file holds the factorisations the analysis repeats at every
+// operating point, written to reuse their storage. Each computes bit for
+// bit what gonum's mat.LU and mat.SVD compute (the same LAPACK routines with
+// the same arguments, or for 2x2 the same arithmetic written out), so that an
+// Analyzer gives exactly the numbers of the allocating code it replaces; the
+// tests compare them on many seeded random matrices.
+
+var impl gonum.Implementation
+
+// small2 is the range of magnitudes in which the written-out 2x2 routines
+// are used. Outside it gonum's SVD rescales the matrix and the Householder
+// step may rescale too; those rare matrices take the general routines.
+const small2 = 0x1p-300
+
+func in2Range(x ...float64) bool {
+	for _, v := range x {
+		if a := math.Abs(v); a != 0 && (a < small2 || a > 1/small2) || math.IsNaN(v) {
+			return false
+		}
+	}
+	return true
+}
+
+// luWork factors small square matrices into reusable storage.
+type luWork struct {
+	n     int
+	lu    []float64
+	ipiv  []int
+	work  []float64
+	iwork []int
+	logs  []float64
+}
+
+func (w *luWork) resize(n int) {
+	if w.n == n && w.lu != nil {
+		return
+	}
+	w.n = n
+	w.lu = make([]float64, n*n)
+	w.ipiv = make([]int, n)
+	w.work = make([]float64, 4*n)
+	w.iwork = make([]int, n)
+	w.logs = make([]float64, n)
+}
+
+// inverseDet is the package's inverseDet (mat.LU: its condition estimate,
+// det from LogDet, K⁻¹ by solving with the identity) into reusable
+// storage. dst must be n×n (or empty); it is left unchanged when k is
+// exactly singular.
+func (w *luWork) inverseDet(dst *mat.Dense, k *mat.Dense) (cond, det float64) {
+	n, _ := k.Dims()
+	if n == 2 {
+		if cond, det, ok := inverseDet2(dst, k); ok {
+			return cond, det
+		}
+	}
+	w.resize(n)
+	g := blas64.General{Rows: n, Cols: n, Stride: n, Data: w.lu}
+	raw := k.RawMatrix()
+	for i := 0; i < n; i++ {
+		copy(w.lu[i*n:i*n+n], raw.Data[i*raw.Stride:i*raw.Stride+n])
+	}
+	anorm := lapack64.Lange(mat.CondNorm, g, w.work)
+	lapack64.Getrf(g, w.ipiv)
+	cond = 1 / lapack64.Gecon(mat.CondNorm, g, anorm, w.work, w.iwork)
+	det = w.det()
+	if math.IsInf(cond, 1) || math.IsNaN(cond) {
+		return math.Inf(1), det
+	}
+	if dst.IsEmpty() {
+		dst.ReuseAs(n, n)
+	}
+	d := dst.RawMatrix()
+	for i := 0; i < n; i++ {
+		row := d.Data[i*d.Stride : i*d.Stride+n]
+		for j := range row {
+			row[j] = 0
+		}
+		row[i] = 1
+	}
+	lapack64.Getrs(blas.NoTrans, g, d, w.ipiv)
+	return cond, det
+}
+
+// det is mat.LU.LogDet turned into det as inverseDet did.
+func (w *luWork) det() float64 {
+	sign := 1.0
+	for i := 0; i < w.n; i++ {
+		v := w.lu[i*w.n+i]
+		if v < 0 {
+			sign *= -1
+		}
+		if w.ipiv[i] != i {
+			sign *= -1
+		}
+		w.logs[i] = math.Log(math.Abs(v))
+	}
+	return math.Exp(floats.Sum(w.logs)) * sign
+}
+
+// inverseDet2 is inverseDet of a 2x2 written out: gonum's Dgetf2 (partial
+// pivoting) and Dgetrs with the identity, operation for operation, and det
+// as LogDet gives it. ok is false (and nothing is written) when the matrix
+// is far from well conditioned or out of range: the general routine then
+// gives the condition estimate that decides. The condition number returned
+// is the exact ∞-norm one, at most 1e10, where gonum's estimate, a lower
+// bound of it, is surely below ConditionLimit as well.
+func inverseDet2(dst *mat.Dense, k *mat.Dense) (cond, det float64, ok bool) {
+	raw := k.RawMatrix()
+	a00, a01 := raw.Data[0], raw.Data[1]
+	a10, a11 := raw.Data[raw.Stride], raw.Data[raw.Stride+1]
+	if !in2Range(a00, a01, a10, a11) {
+		return 0, 0, false
+	}
+	// Dgetf2, column 0: Idamax picks the first largest |a_i0|.
+	swap := math.Abs(a10) > math.Abs(a00)
+	if swap {
+		a00, a01, a10, a11 = a10, a11, a00, a01
+	}
+	if a00 == 0 {
+		return 0, 0, false
+	}
+	l := a10 * (1 / a00)
+	u11 := a11 + (-1*l)*a01
+	if u11 == 0 {
+		return 0, 0, false
+	}
+	// Dgetrs: B = P·I, then L (unit lower) and U solves, row by row.
+	b00, b01, b10, b11 := 1.0, 0.0, 0.0, 1.0
+	if swap {
+		b00, b01, b10, b11 = b10, b11, b00, b01
+	}
+	if l != 0 {
+		b10 += -l * b00
+		b11 += -l * b01
+	}
+	t := 1 / u11
+	b10 *= t
+	b11 *= t
+	if a01 != 0 {
+		b00 += -a01 * b10
+		b01 += -a01 * b11
+	}
+	t = 1 / a00
+	b00 *= t
+	b01 *= t
+	// Exact ∞-norm condition number of the original matrix.
+	an := math.Max(math.Abs(a00)+math.Abs(a01), math.Abs(a10)+math.Abs(a11))
+	in := math.Max(math.Abs(b00)+math.Abs(b01), math.Abs(b10)+math.Abs(b11))
+	cond = an * in
+	if !(cond <= 1e10) {
+		return 0, 0, false
+	}
+	// LogDet: sign from the diagonal and the swaps, magnitude through logs.
+	sign := 1.0
+	if a00 < 0 {
+		sign *= -1
+	}
+	if swap {
+		sign *= -1
+	}
+	if u11 < 0 {
+		sign *= -1
+	}
+	det = math.Exp(math.Log(math.Abs(a00))+math.Log(math.Abs(u11))) * sign
+	if dst.IsEmpty() {
+		dst.ReuseAs(2, 2)
+	}
+	d := dst.RawMatrix()
+	d.Data[0], d.Data[1] = b00, b01
+	d.Data[d.Stride], d.Data[d.Stride+1] = b10, b11
+	return cond, det, true
+}
+
+// svdWork computes thin singular value decompositions into reusable storage,
+// as mat.SVD.Factorize does.
+type svdWork struct {
+	m, n     int
+	wantUV   bool
+	lwork    int
+	a, u, vt []float64
+	s, work  []float64
+}
+
+func (w *svdWork) resize(m, n int, wantUV bool) {
+	if w.m == m && w.n == n && w.wantUV == wantUV && w.a != nil {
+		return
+	}
+	mn := min(m, n)
+	w.m, w.n, w.wantUV = m, n, wantUV
+	w.a = make([]float64, m*n)
+	w.s = make([]float64, mn)
+	w.u, w.vt = make([]float64, m*mn), make([]float64, mn*n)
+	jobU, jobVT := w.jobs()
+	q := []float64{0}
+	lapack64.Gesvd(jobU, jobVT, w.ga(), w.gu(), w.gvt(), w.s, q, -1)
+	w.lwork = int(q[0])
+	w.work = make([]float64, w.lwork)
+}
+
+func (w *svdWork) jobs() (lapack.SVDJob, lapack.SVDJob) {
+	if w.wantUV {
+		return lapack.SVDStore, lapack.SVDStore
+	}
+	return lapack.SVDNone, lapack.SVDNone
+}
+
+func (w *svdWork) ga() blas64.General {
+	return blas64.General{Rows: w.m, Cols: w.n, Stride: w.n, Data: w.a}
+}
+
+func (w *svdWork) gu() blas64.General {
+	mn := min(w.m, w.n)
+	if !w.wantUV {
+		return blas64.General{Rows: w.m, Cols: mn, Stride: 1, Data: nil}
+	}
+	return blas64.General{Rows: w.m, Cols: mn, Stride: mn, Data: w.u}
+}
+
+func (w *svdWork) gvt() blas64.General {
+	mn := min(w.m, w.n)
+	if !w.wantUV {
+		return blas64.General{Rows: mn, Cols: w.n, Stride: 1, Data: nil}
+	}
+	return blas64.General{Rows: mn, Cols: w.n, Stride: w.n, Data: w.vt}
+}
+
+// factorize computes the singular values of k into w.s (and U, Vᵀ into w.u,
+// w.vt when wantUV), reporting convergence.
+func (w *svdWork) factorize(k *mat.Dense, wantUV bool) bool {
+	m, n := k.Dims()
+	w.resize(m, n, wantUV)
+	raw := k.RawMatrix()
+	for i := 0; i < m; i++ {
+		copy(w.a[i*n:i*n+n], raw.Data[i*raw.Stride:i*raw.Stride+n])
+	}
+	jobU, jobVT := w.jobs()
+	return lapack64.Gesvd(jobU, jobVT, w.ga(), w.gu(), w.gvt(), w.s, w.work, w.lwork)
+}
+
+// svdInto stores the thin SVD of k in r (reusing r's storage), as SVD does.
+func (w *svdWork) svdInto(r *SVDResult, k *mat.Dense) error {
+	m, n := k.Dims()
+	mn := min(m, n)
+	if r.U == nil {
+		r.U, r.V = new(mat.Dense), new(mat.Dense)
+	}
+	if !r.U.IsEmpty() {
+		if rr, cc := r.U.Dims(); rr != m || cc != mn {
+			r.U.Reset()
+		}
+	}
+	if !r.V.IsEmpty() {
+		if rr, cc := r.V.Dims(); rr != n || cc != mn {
+			r.V.Reset()
+		}
+	}
+	if r.U.IsEmpty() {
+		r.U.ReuseAs(m, mn)
+	}
+	if r.V.IsEmpty() {
+		r.V.ReuseAs(n, mn)
+	}
+	r.Values = resizeFloats(r.Values, mn)
+	ud, vd := r.U.RawMatrix(), r.V.RawMatrix()
+	if m == 2 && n == 2 && svd2(r.Values, ud.Data[0:2], ud.Data[ud.Stride:ud.Stride+2], vd.Data[0:2], vd.Data[vd.Stride:vd.Stride+2], k) {
+		// done in closed form
+	} else {
+		if !w.factorize(k, true) {
+			return errSVD
+		}
+		copy(r.Values, w.s)
+		for i := 0; i < m; i++ {
+			copy(ud.Data[i*ud.Stride:i*ud.Stride+mn], w.u[i*mn:i*mn+mn])
+		}
+		for i := 0; i < mn; i++ {
+			for j := 0; j < n; j++ {
+				vd.Data[j*vd.Stride+i] = w.vt[i*n+j]
+			}
+		}
+	}
+	r.Cond = 0
+	if mn > 0 {
+		r.Cond = r.Values[0] / r.Values[mn-1]
+	}
+	return nil
+}
+
+func resizeFloats(s []float64, n int) []float64 {
+	if cap(s) < n {
+		return make([]float64, n)
+	}
+	return s[:n]
+}
+
+// bidiag2 is gonum's Dgebd2 on the 2x2 [a00 a01; a10 a11]: one Householder
+// reflector H = I - tau·v·vᵀ, v = (1, v1), zeroes a10 and leaves the upper
+// bidiagonal [d0 e0; 0 d1]. The row reflector of a 2x2 is the identity.
+func bidiag2(a00, a01, a10, a11 float64) (d0, e0, d1, v1, tau float64) {
+	// Dlarfg(2, a00, [a10]).
+	v1 = a10
+	beta := a00
+	if xnorm := math.Abs(a10); xnorm != 0 {
+		beta = -math.Copysign(math.Hypot(a00, xnorm), a00)
+		tau = (beta - a00) / beta
+		v1 = a10 * (1 / (a00 - beta))
+	}
+	// Dlarf(Left) on the second column: Dgemv then Dger, skipped when
+	// Dlarf finds nothing to do.
+	c0, c1 := a01, a11
+	if tau != 0 {
+		if v1 != 0 {
+			if c0 != 0 || c1 != 0 {
+				w := c0 + c1*v1
+				c0 += -tau * w
+				c1 += (-tau * v1) * w
+			}
+		} else if c0 != 0 {
+			c0 += -tau * c0
+		}
+	}
+	return beta, c0, c1, v1, tau
+}
+
+// svd2 is gonum's thin Dgesvd of a 2x2 written out: bidiag2, the Q of the
+// reflector (Dorg2r), and Dbdsqr's 2x2 step (Dlasv2 and the rotations), then
+// positive values in decreasing order. It fills s, the rows of U and of V
+// (V, not Vᵀ) and reports false, writing nothing, for matrices out of range.
+func svd2(s, u0, u1, v0, v1 []float64, k *mat.Dense) bool {
+	raw := k.RawMatrix()
+	a00, a01 := raw.Data[0], raw.Data[1]
+	a10, a11 := raw.Data[raw.Stride], raw.Data[raw.Stride+1]
+	if !in2Range(a00, a01, a10, a11) || (a00 == 0 && a01 == 0 && a10 == 0 && a11 == 0) {
+		return false
+	}
+	d0, e0, d1, hv, tau := bidiag2(a00, a01, a10, a11)
+	if tau != 0 && hv == 0 {
+		return false // underflow inside the reflector: leave it to LAPACK
+	}
+	// Dorg2r: Q = H.
+	q00, q01, q10, q11 := 1-tau, 0.0, 0.0, 1.0 // Dscal by -tau = 0 stores +0
+	if tau != 0 {
+		q10 = hv * (-tau)
+		w := q01 + q11*hv
+		q01 += -tau * w
+		q11 += (-tau * hv) * w
+	}
+	vt00, vt01, vt10, vt11 := 1.0, 0.0, 0.0, 1.0
+	// Dbdsqr, n = 2, upper.
+	const eps = 0x1p-53
+	const unfl = 0x1p-1022
+	tol := math.Max(10, math.Min(100, math.Pow(eps, -1.0/8))) * eps
+	sminoa := math.Abs(d0)
+	if sminoa != 0 {
+		mu := math.Abs(d1) * (sminoa / (sminoa + math.Abs(e0)))
+		sminoa = math.Min(sminoa, mu)
+	}
+	sminoa /= math.Sqrt(2)
+	thresh := math.Max(tol*sminoa, float64(6*2*2)*unfl)
+	if !(math.Abs(e0) <= thresh) {
+		ssmin, ssmax, snr, csr, snl, csl := impl.Dlasv2(d0, e0, d1)
+		d1, d0 = ssmin, ssmax
+		vt00, vt10 = csr*vt00+snr*vt10, csr*vt10-snr*vt00
+		vt01, vt11 = csr*vt01+snr*vt11, csr*vt11-snr*vt01
+		q00, q01 = csl*q00+snl*q01, csl*q01-snl*q00
+		q10, q11 = csl*q10+snl*q11, csl*q11-snl*q10
+	}
+	if d0 < 0 {
+		d0 *= -1
+		vt00 *= -1
+		vt01 *= -1
+	}
+	if d1 < 0 {
+		d1 *= -1
+		vt10 *= -1
+		vt11 *= -1
+	}
+	if !(d1 <= d0) {
+		d0, d1 = d1, d0
+		vt00, vt01, vt10, vt11 = vt10, vt11, vt00, vt01
+		q00, q01 = q01, q00
+		q10, q11 = q11, q10
+	}
+	s[0], s[1] = d0, d1
+	u0[0], u0[1] = q00, q01
+	u1[0], u1[1] = q10, q11
+	v0[0], v0[1] = vt00, vt10
+	v1[0], v1[1] = vt01, vt11
+	return true
+}
+
+// condNone2 is σ1/σ2 of the 2x2 m as gonum's Dgesvd without vectors gives
+// it (Dgebd2, then Dlasq1, which for n = 2 is Dlas2). ok is false for
+// matrices out of range.
+func condNone2(m00, m01, m10, m11 float64) (cond float64, ok bool) {
+	if !in2Range(m00, m01, m10, m11) {
+		return 0, false
+	}
+	d0, e0, d1, hv, tau := bidiag2(m00, m01, m10, m11)
+	if tau != 0 && hv == 0 {
+		return 0, false
+	}
+	ssmin, ssmax := impl.Dlas2(d0, e0, d1)
+	return ssmax / ssmin, true
+}

@@ -1,0 +1,164 @@
+package jacobian
+
+import "math"
+
+// constPool numbers the distinct constants of a program (by bits, so 0 and
+// -0 stay apart) in order of first use.
+type constPool struct {
+	vals []float64
+	idx  map[uint64]int32
+}
+
+func (c *constPool) add(v float64) int32 {
+	bits := math.Float64bits(v)
+	if i, ok := c.idx[bits]; ok {
+		return i
+	}
+	if c.idx == nil {
+		c.idx = map[uint64]int32{}
+	}
+	i := int32(len(c.vals))
+	c.vals = append(c.vals, v)
+	c.idx[bits] = i
+	return i
+}
+
+// collect adds the constants of t's source form to the pool.
+func (c *constPool) collect(t *tape) {
+	for _, o := range t.ops {
+		switch o.code {
+		case opConst, opPowC:
+			c.add(o.c)
+		}
+	}
+}
+
+// lowering builds the forward program of one group of tapes for a value
+// space with nx unknowns, np parameters and the constants of pool (every
+// constant of the tapes must be in it), and the reverse sweep of each tape.
+type lowering struct {
+	nx, np int32
+	pool   *constPool
+	base   int32           // index in w of temporary 0: nx + np + constants
+	code   []instr         // the forward program
+	cse    map[instr]int32 // instruction -> index in w of its value
+}
+
+func newLowering(nx, np int, pool *constPool) *lowering {
+	return &lowering{
+		nx:   int32(nx),
+		np:   int32(np),
+		pool: pool,
+		base: int32(nx + np + len(pool.vals)),
+		cse:  map[instr]int32{},
+	}
+}
+
+func (l *lowering) constant(c float64) int32 {
+	return l.nx + l.np + l.pool.idx[math.Float64bits(c)]
+}
+
+// tape lowers t: its arithmetic joins the forward program, an instruction
+// already there (same operation on the same operands, hence the same value)
+// being reused; then its reverse sweep is built.
+func (l *lowering) tape(t *tape) {
+	t.slot = make([]int32, len(t.ops))
+	for k, o := range t.ops {
+		switch o.code {
+		case opVar:
+			t.slot[k] = o.a
+			continue
+		case opParam:
+			t.slot[k] = l.nx + o.a
+			continue
+		case opConst:
+			t.slot[k] = l.constant(o.c)
+			continue
+		}
+		in := instr{code: o.code, a: t.slot[o.a]}
+		switch {
+		case o.code == opPowC:
+			in.b = l.constant(o.c)
+		case o.code.binary():
+			in.b = t.slot[o.b]
+		default:
+			in.b = in.a
+		}
+		i, ok := l.cse[in]
+		if !ok {
+			i = l.base + int32(len(l.code))
+			l.code = append(l.code, in)
+			l.cse[in] = i
+		}
+		t.slot[k] = i
+	}
+	t.out = t.slot[t.root]
+	l.reverse(t)
+}
+
+// reverse builds the reverse sweep of t: one step per arithmetic op from
+// the root down, as the source form's sweep visits them.
+func (l *lowering) reverse(t *tape) {
+	zero := l.nx + l.np
+	sink := zero + 1
+	t.dbase = zero + 2
+	n := int(t.root) + 1
+	t.aslot = make([]int32, n)
+	t.rev = t.rev[:0]
+	for k := n - 1; k >= 0; k-- {
+		switch o := t.ops[k]; o.code {
+		case opVar:
+			t.aslot[k] = o.a
+		case opParam:
+			t.aslot[k] = l.nx + o.a
+		case opConst:
+			t.aslot[k] = sink
+		default:
+			t.aslot[k] = t.dbase + int32(len(t.rev))
+			t.rev = append(t.rev, rinstr{code: o.code})
+		}
+	}
+	t.rootAdj = t.aslot[t.root]
+
+	// Operands: the first step to reach one (in sweep order) adds to zero.
+	reached := make([]bool, n)
+	target := func(s int32) (ta, sa int32) {
+		switch {
+		case t.ops[s].code == opConst:
+			return sink, zero
+		case !reached[s]:
+			reached[s] = true
+			return t.aslot[s], zero
+		}
+		return t.aslot[s], t.aslot[s]
+	}
+	j := 0
+	for k := n - 1; k >= 0; k-- {
+		o := t.ops[k]
+		switch o.code {
+		case opVar, opParam, opConst:
+			continue
+		}
+		r := &t.rev[j]
+		j++
+		r.va, r.vk = t.slot[o.a], t.slot[k]
+		r.ta, r.sa = target(o.a)
+		switch {
+		case o.code == opPowC:
+			r.vb = l.constant(o.c)
+			r.tb, r.sb = sink, zero
+		case o.code.binary():
+			r.vb = t.slot[o.b]
+			r.tb, r.sb = target(o.b)
+		default:
+			r.vb = r.va
+			r.tb, r.sb = sink, zero
+		}
+	}
+	t.zero = t.zero[:0]
+	for k := range n - 1 {
+		if c := t.ops[k].code; c != opConst && !reached[k] {
+			t.zero = append(t.zero, t.aslot[k]) // loaded (or computed) but not used
+		}
+	}
+}
