@@ -26,13 +26,15 @@ type Program struct {
 	// Forward programs of the equations, outputs, defines and checks: the
 	// values of all tapes of the group, temporaries from w[base].
 	eqFwd, outFwd, defFwd, chkFwd []instr
-	base                          int
-	size                          int // length of w: base + the longest forward program
-	dsize                         int // length of d: nx + np + 2 + the longest reverse sweep
-	xNames                        []string
-	pNames                        []string
-	xTyp                          []float64 // typical magnitudes for finite-difference steps
-	pTyp                          []float64
+	// Reverse sweeps of the equations and of the outputs, in batches.
+	eqRev, outRev []batch
+	base          int
+	size          int // length of w: base + the longest forward program
+	dsize         int // length of d: the largest group's adjoint regions
+	xNames        []string
+	pNames        []string
+	xTyp          []float64 // typical magnitudes for finite-difference steps
+	pTyp          []float64
 }
 
 // Compile compiles the equations, outputs, defines and checks of sys into
@@ -93,20 +95,19 @@ func Compile(sys *model.System) (*Program, error) {
 	prog.consts = pool.vals
 	prog.base = prog.nx + prog.np + len(pool.vals)
 	prog.size = prog.base
-	prog.dsize = prog.nx + prog.np + 2
-	lower := func(ts []*tape) []instr {
+	lower := func(ts []*tape) ([]instr, []batch) {
 		l := newLowering(prog.nx, prog.np, &pool)
 		for _, t := range ts {
 			l.tape(t)
-			prog.dsize = max(prog.dsize, int(t.dbase)+len(t.rev))
 		}
 		prog.size = max(prog.size, prog.base+len(l.code))
-		return l.code
+		prog.dsize = max(prog.dsize, int(l.dnext))
+		return l.code, l.batches()
 	}
-	prog.eqFwd = lower(prog.eqs)
-	prog.outFwd = lower(prog.outs)
-	prog.defFwd = lower(prog.defs)
-	prog.chkFwd = lower(prog.checks)
+	prog.eqFwd, prog.eqRev = lower(prog.eqs)
+	prog.outFwd, prog.outRev = lower(prog.outs)
+	prog.defFwd, _ = lower(prog.defs) // reverse sweeps kept only for describing errors
+	prog.chkFwd, _ = lower(prog.checks)
 
 	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
 	for i, t := range prog.eqs {

@@ -17,7 +17,7 @@ import (
 type Eval struct {
 	prog   *Program
 	w      []float64 // value space: x, p, the constants, the temporaries of a forward program
-	d      []float64 // adjoints: x, p, zero, sink, the temporaries of a tape
+	d      []float64 // adjoints: zero, sink, one region per tape of a group
 	vals   []float64 // values of the source form of a tape, gathered to describe an error
 	adj    []float64 // adjoints of the source form, gathered to describe an error
 	padj   []float64 // parameter adjoints, scattered by index, kept zero between uses
@@ -127,8 +127,9 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
 	}
 	forward(e.prog.eqFwd, e.w, e.prog.base)
+	reverse(e.prog.eqs, e.prog.eqRev, e.d, e.w)
 	for i, t := range e.prog.eqs {
-		r, err := e.gradient(t)
+		r, err := e.value(t)
 		if err != nil {
 			return err
 		}
@@ -136,9 +137,9 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 			f[i] = r
 		}
 		row := dst.Val[pat.RowPtr[i]:pat.RowPtr[i+1]]
-		for k, vr := range t.vars {
-			d := e.d[vr.index]
+		for k, d := range e.d[t.adj0 : int(t.adj0)+len(row)] {
 			if !finite(d) {
+				vr := t.vars[k]
 				return e.derivFault(t, e.prog.xNames[vr.index])
 			}
 			row[k] = d
@@ -147,25 +148,12 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	return nil
 }
 
-// gradient runs the reverse sweep of t after the forward program of its
-// group, leaving the adjoint of every temporary and every unknown and
-// parameter of t in e.d. The value must be finite; the derivatives are
-// checked by the caller, for the symbols it asked for.
-func (e *Eval) gradient(t *tape) (float64, error) {
-	r, err := e.value(t)
-	if err != nil {
-		return r, err
-	}
-	t.reverse(e.d, e.w)
-	return r, nil
-}
-
 // ParamJacobian sets column k of dst to dF/dp[cols[k]] at (x, p); dst has one
 // row per equation and len(cols) columns.
 func (e *Eval) ParamJacobian(dst *mat.Dense, x, p []float64, cols []int) error {
 	e.check(x, p)
 	checkDims("dst", dst, len(e.prog.eqs), len(cols))
-	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, cols)
+	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, e.prog.eqRev, cols)
 }
 
 // OutputGradients sets dx to dy/dx (one row per output, one column per
@@ -177,12 +165,12 @@ func (e *Eval) OutputGradients(dx, dp *mat.Dense, x, p []float64, cols []int) er
 	if dp != nil {
 		checkDims("dp", dp, nout, len(cols))
 	}
-	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, cols)
+	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, e.prog.outRev, cols)
 }
 
 // gradRows sets dx[i][j] = d tapes[i] / d x[j] when dx is not nil, and
 // dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil.
-func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, cols []int) error {
+func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, rev []batch, cols []int) error {
 	if dp != nil {
 		for _, c := range cols {
 			if c < 0 || c >= e.prog.np {
@@ -191,15 +179,16 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, cols []i
 		}
 	}
 	forward(code, e.w, e.prog.base)
+	reverse(tapes, rev, e.d, e.w)
 	for i, t := range tapes {
-		if _, err := e.gradient(t); err != nil {
+		if _, err := e.value(t); err != nil {
 			return err
 		}
 		if dx != nil {
 			row := dx.RawRowView(i)
 			clear(row)
-			for _, vr := range t.vars {
-				d := e.d[vr.index]
+			for k, vr := range t.vars {
+				d := e.d[int(t.adj0)+k]
 				if !finite(d) {
 					return e.derivFault(t, e.prog.xNames[vr.index])
 				}
@@ -207,8 +196,8 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, cols []i
 			}
 		}
 		if dp != nil {
-			for _, vr := range t.params {
-				e.padj[vr.index] = e.d[e.prog.nx+int(vr.index)]
+			for k, vr := range t.params {
+				e.padj[vr.index] = e.d[int(t.adj0)+len(t.vars)+k]
 			}
 			var bad int32 = -1
 			for k, c := range cols {

@@ -42,15 +42,24 @@ type lowering struct {
 	base   int32           // index in w of temporary 0: nx + np + constants
 	code   []instr         // the forward program
 	cse    map[instr]int32 // instruction -> index in w of its value
+	dnext  int32           // start of the next tape's region of d
+	sweeps []sweep         // reverse sweep of each tape, in order
+}
+
+// sweep is the reverse sweep of one tape, before batching.
+type sweep struct {
+	code  []opcode
+	lanes []rlane
 }
 
 func newLowering(nx, np int, pool *constPool) *lowering {
 	return &lowering{
-		nx:   int32(nx),
-		np:   int32(np),
-		pool: pool,
-		base: int32(nx + np + len(pool.vals)),
-		cse:  map[instr]int32{},
+		nx:    int32(nx),
+		np:    int32(np),
+		pool:  pool,
+		base:  int32(nx + np + len(pool.vals)),
+		cse:   map[instr]int32{},
+		dnext: dSink + 1,
 	}
 }
 
@@ -96,28 +105,41 @@ func (l *lowering) tape(t *tape) {
 	l.reverse(t)
 }
 
-// reverse builds the reverse sweep of t: one step per arithmetic op from
-// the root down, as the source form's sweep visits them.
+// reverse builds the reverse sweep of t, one step per arithmetic op from
+// the root down as the source form's sweep visits them, and gives t its
+// region of d.
 func (l *lowering) reverse(t *tape) {
-	zero := l.nx + l.np
-	sink := zero + 1
-	t.dbase = zero + 2
 	n := int(t.root) + 1
+	t.adj0 = l.dnext
+	t.zero = t.zero[:0]
 	t.aslot = make([]int32, n)
-	t.rev = t.rev[:0]
-	for k := n - 1; k >= 0; k-- {
-		switch o := t.ops[k]; o.code {
-		case opVar:
-			t.aslot[k] = o.a
-		case opParam:
-			t.aslot[k] = l.nx + o.a
-		case opConst:
-			t.aslot[k] = sink
-		default:
-			t.aslot[k] = t.dbase + int32(len(t.rev))
-			t.rev = append(t.rev, rinstr{code: o.code})
+	for k := range t.aslot {
+		t.aslot[k] = -1
+	}
+	next := t.adj0
+	for _, refs := range [][]varRef{t.vars, t.params} {
+		for _, vr := range refs {
+			if int(vr.slot) < n {
+				t.aslot[vr.slot] = next
+			} else {
+				t.zero = append(t.zero, next) // loaded after the result: derivative 0
+			}
+			next++
 		}
 	}
+	var sw sweep
+	for k := n - 1; k >= 0; k-- {
+		switch o := t.ops[k]; o.code {
+		case opVar, opParam:
+		case opConst:
+			t.aslot[k] = dSink
+		default:
+			t.aslot[k] = next
+			next++
+			sw.code = append(sw.code, o.code)
+		}
+	}
+	l.dnext = next
 	t.rootAdj = t.aslot[t.root]
 
 	// Operands: the first step to reach one (in sweep order) adds to zero.
@@ -125,40 +147,71 @@ func (l *lowering) reverse(t *tape) {
 	target := func(s int32) (ta, sa int32) {
 		switch {
 		case t.ops[s].code == opConst:
-			return sink, zero
+			return dSink, dZero
 		case !reached[s]:
 			reached[s] = true
-			return t.aslot[s], zero
+			return t.aslot[s], dZero
 		}
 		return t.aslot[s], t.aslot[s]
 	}
-	j := 0
 	for k := n - 1; k >= 0; k-- {
 		o := t.ops[k]
 		switch o.code {
 		case opVar, opParam, opConst:
 			continue
 		}
-		r := &t.rev[j]
-		j++
-		r.va, r.vk = t.slot[o.a], t.slot[k]
+		r := rlane{va: t.slot[o.a], vk: t.slot[k], tk: t.aslot[k]}
 		r.ta, r.sa = target(o.a)
 		switch {
 		case o.code == opPowC:
 			r.vb = l.constant(o.c)
-			r.tb, r.sb = sink, zero
+			r.tb, r.sb = dSink, dZero
 		case o.code.binary():
 			r.vb = t.slot[o.b]
 			r.tb, r.sb = target(o.b)
 		default:
 			r.vb = r.va
-			r.tb, r.sb = sink, zero
+			r.tb, r.sb = dSink, dZero
 		}
+		sw.lanes = append(sw.lanes, r)
 	}
-	t.zero = t.zero[:0]
 	for k := range n - 1 {
 		if c := t.ops[k].code; c != opConst && !reached[k] {
 			t.zero = append(t.zero, t.aslot[k]) // loaded (or computed) but not used
 		}
 	}
+	l.sweeps = append(l.sweeps, sw)
+}
+
+// batches gathers the sweeps of the tapes lowered so far into batches, one
+// per distinct sequence of ops, in order of first appearance.
+func (l *lowering) batches() []batch {
+	var out []batch
+	var members [][]int
+	index := map[string]int{}
+	for i, sw := range l.sweeps {
+		if len(sw.code) == 0 {
+			continue
+		}
+		key := string(sw.code)
+		b, ok := index[key]
+		if !ok {
+			b = len(out)
+			index[key] = b
+			out = append(out, batch{code: sw.code})
+			members = append(members, nil)
+		}
+		members[b] = append(members[b], i)
+	}
+	for b := range out {
+		bt := &out[b]
+		bt.k = len(members[b])
+		bt.lanes = make([]rlane, len(bt.code)*bt.k)
+		for lane, i := range members[b] {
+			for s, r := range l.sweeps[i].lanes {
+				bt.lanes[s*bt.k+lane] = r
+			}
+		}
+	}
+	return out
 }

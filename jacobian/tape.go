@@ -63,25 +63,45 @@ type instr struct {
 	a, b int32
 }
 
-// rinstr is one step of the reverse sweep of a tape: the adjoint of one
-// arithmetic op of the source form, in the order the source form's sweep
-// visits them (result to operands). Values come from w; adjoints live in a
+// rlane is one step of the reverse sweep of one tape: the adjoint of one
+// arithmetic op of its source form. Values come from w; adjoints live in a
 // second array d, laid out as
 //
-//	d = [ x (nx) | p (np) | zero | sink | the tape's temporaries ]
+//	d = [ zero | sink | one region per tape of the group ]
 //
 // where zero always holds 0 and sink receives the adjoints of constants,
-// which nobody reads. The adjoint of the op's own result is temporary j of d
-// for step j. An operand's contribution is added to d[sa] and stored in
-// d[ta]: sa is ta itself, or the zero slot where the step is the first (in
-// sweep order) to reach the operand, so a tape's adjoints need no clearing
-// and the sums are those of a cleared array, term by term.
-type rinstr struct {
-	code       opcode
+// which nobody reads. A tape's region holds the adjoints of the unknowns it
+// loads (in the order of tape.vars), of its parameters (tape.params) and of
+// its temporaries, so the sweeps of different tapes never touch the same
+// number and may run in any order, interleaved.
+//
+// The step reads its own adjoint g = d[tk]. An operand's contribution is
+// added to d[sa] and stored in d[ta]: sa is ta itself, or the zero slot where
+// the step is the first (in the source form's sweep order) to reach the
+// operand, so no adjoint needs clearing and every sum is that of a cleared
+// array, term by term.
+type rlane struct {
 	va, vb, vk int32 // indices in w of the operands and of the result
+	tk         int32 // index in d of the result's adjoint
 	ta, tb     int32 // adjoints of the operands (for unary ops tb is the sink)
 	sa, sb     int32 // adjoints the contributions are added to: ta/tb or the zero slot
 }
+
+// batch is the reverse sweep of several tapes whose source forms have the
+// same sequence of arithmetic ops: step s is code[s] on each lane, the lanes
+// of step s being lanes[s*k : (s+1)*k]. One dispatch serves k tapes, and
+// their independent chains of adjoints overlap in the processor.
+type batch struct {
+	code  []opcode
+	k     int
+	lanes []rlane
+}
+
+// Positions of the zero and sink slots in d.
+const (
+	dZero = 0
+	dSink = 1
+)
 
 // varRef ties a load instruction to the symbol it loads.
 type varRef struct {
@@ -113,13 +133,12 @@ type tape struct {
 	vars   []varRef // unknowns loaded, sorted by index: the row's pattern
 	params []varRef // parameters loaded, sorted by index
 
-	out     int32    // index in w of the result
-	rev     []rinstr // reverse sweep
-	dbase   int32    // index in d of the adjoint of rev[0]'s result
-	rootAdj int32    // index in d of the result's adjoint
-	zero    []int32  // adjoints in d to clear before the sweep: leaves no step reaches
-	slot    []int32  // index in w of the value of each source op
-	aslot   []int32  // index in d of the adjoint of each source op up to root
+	out     int32   // index in w of the result
+	adj0    int32   // start of the tape's region of d: unknowns, then parameters
+	rootAdj int32   // index in d of the result's adjoint
+	zero    []int32 // adjoints in d to clear before the sweep: those no step reaches
+	slot    []int32 // index in w of the value of each source op
+	aslot   []int32 // index in d of the adjoint of each source op up to root
 }
 
 // forward runs a forward program on the value space w (x, p and the
@@ -171,81 +190,140 @@ func forward(code []instr, w []float64, base int) {
 	}
 }
 
-// reverse runs the adjoint sweep of t after the forward program of its
-// group: d receives the derivative of the result with respect to every
-// temporary and every unknown and parameter t loads; w holds the values.
-// Each adjoint is accumulated term by term in the order of the source
-// form's sweep, operand a before operand b, starting from 0, and a step
-// whose own adjoint is 0 is skipped, so every derivative is the same number
-// the source form gives. Adjoints of symbols t does not load are left alone.
-func (t *tape) reverse(d, w []float64) {
-	for _, z := range t.zero {
-		d[z] = 0
+// reverse runs the adjoint sweeps of tapes, whose steps are batches, after
+// the forward program of their group: d receives the derivative of each
+// tape's result with respect to its temporaries, unknowns and parameters,
+// in the tape's region; w holds the values. Each adjoint is accumulated term
+// by term in the order of the source form's sweep, operand a before operand
+// b, starting from 0, and a step whose own adjoint is 0 is skipped, so every
+// derivative is the same number the source form gives.
+func reverse(tapes []*tape, batches []batch, d, w []float64) {
+	for _, t := range tapes {
+		for _, z := range t.zero {
+			d[z] = 0
+		}
+		d[t.rootAdj] = 1
 	}
-	d[t.rootAdj] = 1
-	dt := d[t.dbase : int(t.dbase)+len(t.rev)]
-	for j := range t.rev {
-		o := &t.rev[j]
-		g := dt[j]
-		if g == 0 {
-			// Skipped: an operand reached first here starts from 0.
-			d[o.ta] = d[o.sa]
-			d[o.tb] = d[o.sb]
-			continue
+	for b := range batches {
+		bt := &batches[b]
+		for s, code := range bt.code {
+			reverseStep(code, bt.lanes[s*bt.k:(s+1)*bt.k], d, w)
 		}
-		switch o.code {
-		case opAdd:
-			d[o.ta] = d[o.sa] + g
-			d[o.tb] = d[o.sb] + g
-		case opSub:
-			d[o.ta] = d[o.sa] + g
-			d[o.tb] = d[o.sb] - g
-		case opMul:
-			d[o.ta] = d[o.sa] + g*w[o.vb]
-			d[o.tb] = d[o.sb] + g*w[o.va]
-		case opNeg:
-			d[o.ta] = d[o.sa] - g
-		case opDiv:
-			q := g / w[o.vb]
-			d[o.ta] = d[o.sa] + q
-			d[o.tb] = d[o.sb] - q*w[o.vk]
-		case opSq:
-			d[o.ta] = d[o.sa] + g*(2*w[o.va])
-		case opPowC:
-			d[o.ta] = d[o.sa] + g*powPartial(w[o.va], w[o.vb], w[o.vk])
-		case opPow:
-			a, b, r := w[o.va], w[o.vb], w[o.vk]
-			da := powPartial(a, b, r)
-			var db float64
-			if r != 0 {
-				db = r * math.Log(a) // NaN for a < 0: no real derivative
+	}
+}
+
+// reverseStep runs one step of the reverse sweep, an op of the given code,
+// on each lane.
+func reverseStep(code opcode, lanes []rlane, d, w []float64) {
+	switch code {
+	case opAdd:
+		for i := range lanes {
+			o := &lanes[i]
+			if g := d[o.tk]; g != 0 {
+				d[o.ta] = d[o.sa] + g
+				d[o.tb] = d[o.sb] + g
+			} else {
+				skip(o, d)
 			}
-			d[o.ta] = d[o.sa] + g*da
-			d[o.tb] = d[o.sb] + g*db
-		case opExp:
-			d[o.ta] = d[o.sa] + g*w[o.vk]
-		case opLog:
-			d[o.ta] = d[o.sa] + g*(1/w[o.va])
-		case opLog10:
-			d[o.ta] = d[o.sa] + g*(1/(w[o.va]*math.Ln10))
-		case opSqrt:
-			d[o.ta] = d[o.sa] + g*(0.5/w[o.vk])
-		case opAbs:
-			da := 1.0
-			if w[o.va] < 0 {
-				da = -1
-			}
-			d[o.ta] = d[o.sa] + g*da
-		case opMin, opMax:
-			da, db := 1.0, 0.0
-			if o.code == opMin && w[o.vb] < w[o.va] || o.code == opMax && w[o.vb] > w[o.va] {
-				da, db = 0, 1
-			}
-			d[o.ta] = d[o.sa] + g*da
-			d[o.tb] = d[o.sb] + g*db
-		default:
-			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 		}
+	case opSub:
+		for i := range lanes {
+			o := &lanes[i]
+			if g := d[o.tk]; g != 0 {
+				d[o.ta] = d[o.sa] + g
+				d[o.tb] = d[o.sb] - g
+			} else {
+				skip(o, d)
+			}
+		}
+	case opMul:
+		for i := range lanes {
+			o := &lanes[i]
+			if g := d[o.tk]; g != 0 {
+				d[o.ta] = d[o.sa] + g*w[o.vb]
+				d[o.tb] = d[o.sb] + g*w[o.va]
+			} else {
+				skip(o, d)
+			}
+		}
+	case opDiv:
+		for i := range lanes {
+			o := &lanes[i]
+			if g := d[o.tk]; g != 0 {
+				q := g / w[o.vb]
+				d[o.ta] = d[o.sa] + q
+				d[o.tb] = d[o.sb] - q*w[o.vk]
+			} else {
+				skip(o, d)
+			}
+		}
+	case opNeg:
+		for i := range lanes {
+			o := &lanes[i]
+			if g := d[o.tk]; g != 0 {
+				d[o.ta] = d[o.sa] - g
+			} else {
+				skip(o, d)
+			}
+		}
+	default:
+		for i := range lanes {
+			o := &lanes[i]
+			if g := d[o.tk]; g != 0 {
+				reverseOther(code, o, g, d, w)
+			} else {
+				skip(o, d)
+			}
+		}
+	}
+}
+
+// skip passes over a step whose adjoint is 0: an operand reached first here
+// starts from 0.
+func skip(o *rlane, d []float64) {
+	d[o.ta] = d[o.sa]
+	d[o.tb] = d[o.sb]
+}
+
+// reverseOther is the step of the less common ops, with adjoint g != 0.
+func reverseOther(code opcode, o *rlane, g float64, d, w []float64) {
+	switch code {
+	case opSq:
+		d[o.ta] = d[o.sa] + g*(2*w[o.va])
+	case opPowC:
+		d[o.ta] = d[o.sa] + g*powPartial(w[o.va], w[o.vb], w[o.vk])
+	case opPow:
+		a, b, r := w[o.va], w[o.vb], w[o.vk]
+		da := powPartial(a, b, r)
+		var db float64
+		if r != 0 {
+			db = r * math.Log(a) // NaN for a < 0: no real derivative
+		}
+		d[o.ta] = d[o.sa] + g*da
+		d[o.tb] = d[o.sb] + g*db
+	case opExp:
+		d[o.ta] = d[o.sa] + g*w[o.vk]
+	case opLog:
+		d[o.ta] = d[o.sa] + g*(1/w[o.va])
+	case opLog10:
+		d[o.ta] = d[o.sa] + g*(1/(w[o.va]*math.Ln10))
+	case opSqrt:
+		d[o.ta] = d[o.sa] + g*(0.5/w[o.vk])
+	case opAbs:
+		da := 1.0
+		if w[o.va] < 0 {
+			da = -1
+		}
+		d[o.ta] = d[o.sa] + g*da
+	case opMin, opMax:
+		da, db := 1.0, 0.0
+		if code == opMin && w[o.vb] < w[o.va] || code == opMax && w[o.vb] > w[o.va] {
+			da, db = 0, 1
+		}
+		d[o.ta] = d[o.sa] + g*da
+		d[o.tb] = d[o.sb] + g*db
+	default:
+		panic(fmt.Sprintf("jacobian: unknown opcode %d", code))
 	}
 }
 
