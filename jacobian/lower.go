@@ -210,6 +210,18 @@ func (l *lowering) batches() []batch {
 		for lane, i := range members[b] {
 			for s, r := range l.sweeps[i].lanes {
 				bt.lanes[s*bt.k+lane] = r
+				for _, v := range []int32{r.va, r.vb, r.vk} {
+					if v < 0 {
+						panic("jacobian: negative value index")
+					}
+					bt.wlen = max(bt.wlen, int(v)+1)
+				}
+				for _, a := range []int32{r.tk, r.ta, r.tb, r.sa, r.sb} {
+					if a < 0 {
+						panic("jacobian: negative adjoint index")
+					}
+					bt.dlen = max(bt.dlen, int(a)+1)
+				}
 			}
 		}
 	}

@@ -3,6 +3,7 @@ package jacobian
 import (
 	"fmt"
 	"math"
+	"unsafe"
 
 	"github.com/loopwright/loopwright/model"
 )
@@ -95,6 +96,10 @@ type batch struct {
 	code  []opcode
 	k     int
 	lanes []rlane
+	// Every index of a lane is in [0, dlen) for d or [0, wlen) for w, as
+	// checked when the batch was built; reverse checks len(d) and len(w)
+	// against them once and indexes without further checks.
+	dlen, wlen int
 }
 
 // Positions of the zero and sink slots in d.
@@ -206,70 +211,80 @@ func reverse(tapes []*tape, batches []batch, d, w []float64) {
 	}
 	for b := range batches {
 		bt := &batches[b]
+		if len(d) < bt.dlen || len(w) < bt.wlen {
+			panic("jacobian: work buffers too short for the program")
+		}
+		dp, wp := unsafe.Pointer(unsafe.SliceData(d)), unsafe.Pointer(unsafe.SliceData(w))
 		for s, code := range bt.code {
-			reverseStep(code, bt.lanes[s*bt.k:(s+1)*bt.k], d, w)
+			reverseStep(code, bt.lanes[s*bt.k:(s+1)*bt.k], dp, wp)
 		}
 	}
 }
 
+// at returns the element i of the float64 array at p. Callers have checked
+// that i is in range.
+func at(p unsafe.Pointer, i int32) *float64 {
+	return (*float64)(unsafe.Add(p, uintptr(uint32(i))*8))
+}
+
 // reverseStep runs one step of the reverse sweep, an op of the given code,
-// on each lane.
-func reverseStep(code opcode, lanes []rlane, d, w []float64) {
+// on each lane. d and w point to the adjoints and the values.
+func reverseStep(code opcode, lanes []rlane, d, w unsafe.Pointer) {
 	switch code {
 	case opAdd:
-		for i := range lanes {
-			o := &lanes[i]
-			if g := d[o.tk]; g != 0 {
-				d[o.ta] = d[o.sa] + g
-				d[o.tb] = d[o.sb] + g
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) + g
+				*at(d, o.tb) = *at(d, o.sb) + g
 			} else {
 				skip(o, d)
 			}
 		}
 	case opSub:
-		for i := range lanes {
-			o := &lanes[i]
-			if g := d[o.tk]; g != 0 {
-				d[o.ta] = d[o.sa] + g
-				d[o.tb] = d[o.sb] - g
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) + g
+				*at(d, o.tb) = *at(d, o.sb) - g
 			} else {
 				skip(o, d)
 			}
 		}
 	case opMul:
-		for i := range lanes {
-			o := &lanes[i]
-			if g := d[o.tk]; g != 0 {
-				d[o.ta] = d[o.sa] + g*w[o.vb]
-				d[o.tb] = d[o.sb] + g*w[o.va]
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vb)
+				*at(d, o.tb) = *at(d, o.sb) + g**at(w, o.va)
 			} else {
 				skip(o, d)
 			}
 		}
 	case opDiv:
-		for i := range lanes {
-			o := &lanes[i]
-			if g := d[o.tk]; g != 0 {
-				q := g / w[o.vb]
-				d[o.ta] = d[o.sa] + q
-				d[o.tb] = d[o.sb] - q*w[o.vk]
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				q := g / *at(w, o.vb)
+				*at(d, o.ta) = *at(d, o.sa) + q
+				*at(d, o.tb) = *at(d, o.sb) - q**at(w, o.vk)
 			} else {
 				skip(o, d)
 			}
 		}
 	case opNeg:
-		for i := range lanes {
-			o := &lanes[i]
-			if g := d[o.tk]; g != 0 {
-				d[o.ta] = d[o.sa] - g
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) - g
 			} else {
 				skip(o, d)
 			}
 		}
 	default:
-		for i := range lanes {
-			o := &lanes[i]
-			if g := d[o.tk]; g != 0 {
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
 				reverseOther(code, o, g, d, w)
 			} else {
 				skip(o, d)
@@ -280,48 +295,48 @@ func reverseStep(code opcode, lanes []rlane, d, w []float64) {
 
 // skip passes over a step whose adjoint is 0: an operand reached first here
 // starts from 0.
-func skip(o *rlane, d []float64) {
-	d[o.ta] = d[o.sa]
-	d[o.tb] = d[o.sb]
+func skip(o *rlane, d unsafe.Pointer) {
+	*at(d, o.ta) = *at(d, o.sa)
+	*at(d, o.tb) = *at(d, o.sb)
 }
 
 // reverseOther is the step of the less common ops, with adjoint g != 0.
-func reverseOther(code opcode, o *rlane, g float64, d, w []float64) {
+func reverseOther(code opcode, o *rlane, g float64, d, w unsafe.Pointer) {
 	switch code {
 	case opSq:
-		d[o.ta] = d[o.sa] + g*(2*w[o.va])
+		*at(d, o.ta) = *at(d, o.sa) + g*(2**at(w, o.va))
 	case opPowC:
-		d[o.ta] = d[o.sa] + g*powPartial(w[o.va], w[o.vb], w[o.vk])
+		*at(d, o.ta) = *at(d, o.sa) + g*powPartial(*at(w, o.va), *at(w, o.vb), *at(w, o.vk))
 	case opPow:
-		a, b, r := w[o.va], w[o.vb], w[o.vk]
+		a, b, r := *at(w, o.va), *at(w, o.vb), *at(w, o.vk)
 		da := powPartial(a, b, r)
 		var db float64
 		if r != 0 {
 			db = r * math.Log(a) // NaN for a < 0: no real derivative
 		}
-		d[o.ta] = d[o.sa] + g*da
-		d[o.tb] = d[o.sb] + g*db
+		*at(d, o.ta) = *at(d, o.sa) + g*da
+		*at(d, o.tb) = *at(d, o.sb) + g*db
 	case opExp:
-		d[o.ta] = d[o.sa] + g*w[o.vk]
+		*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vk)
 	case opLog:
-		d[o.ta] = d[o.sa] + g*(1/w[o.va])
+		*at(d, o.ta) = *at(d, o.sa) + g*(1 / *at(w, o.va))
 	case opLog10:
-		d[o.ta] = d[o.sa] + g*(1/(w[o.va]*math.Ln10))
+		*at(d, o.ta) = *at(d, o.sa) + g*(1/(*at(w, o.va)*math.Ln10))
 	case opSqrt:
-		d[o.ta] = d[o.sa] + g*(0.5/w[o.vk])
+		*at(d, o.ta) = *at(d, o.sa) + g*(0.5 / *at(w, o.vk))
 	case opAbs:
 		da := 1.0
-		if w[o.va] < 0 {
+		if *at(w, o.va) < 0 {
 			da = -1
 		}
-		d[o.ta] = d[o.sa] + g*da
+		*at(d, o.ta) = *at(d, o.sa) + g*da
 	case opMin, opMax:
 		da, db := 1.0, 0.0
-		if code == opMin && w[o.vb] < w[o.va] || code == opMax && w[o.vb] > w[o.va] {
+		if code == opMin && *at(w, o.vb) < *at(w, o.va) || code == opMax && *at(w, o.vb) > *at(w, o.va) {
 			da, db = 0, 1
 		}
-		d[o.ta] = d[o.sa] + g*da
-		d[o.tb] = d[o.sb] + g*db
+		*at(d, o.ta) = *at(d, o.sa) + g*da
+		*at(d, o.tb) = *at(d, o.sb) + g*db
 	default:
 		panic(fmt.Sprintf("jacobian: unknown opcode %d", code))
 	}
