@@ -25,7 +25,7 @@ type Program struct {
 
 	// Forward programs of the equations, outputs, defines and checks: the
 	// values of all tapes of the group, temporaries from w[base].
-	eqFwd, outFwd, defFwd, chkFwd []instr
+	eqFwd, outFwd, defFwd, chkFwd *fwdProgram
 	// Reverse sweeps of the equations and of the outputs, in batches.
 	eqRev, outRev []batch
 	base          int
@@ -95,14 +95,15 @@ func Compile(sys *model.System) (*Program, error) {
 	prog.consts = pool.vals
 	prog.base = prog.nx + prog.np + len(pool.vals)
 	prog.size = prog.base
-	lower := func(ts []*tape) ([]instr, []batch) {
+	lower := func(ts []*tape) (*fwdProgram, []batch) {
 		l := newLowering(prog.nx, prog.np, &pool)
 		for _, t := range ts {
 			l.tape(t)
 		}
-		prog.size = max(prog.size, prog.base+len(l.code))
+		f := l.schedule()
+		prog.size = max(prog.size, prog.base+len(f.code))
 		prog.dsize = max(prog.dsize, int(l.dnext))
-		return l.code, l.batches()
+		return f, l.batches()
 	}
 	prog.eqFwd, prog.eqRev = lower(prog.eqs)
 	prog.outFwd, prog.outRev = lower(prog.outs)
@@ -468,9 +469,10 @@ func (c *compiler) fold(code opcode, at model.Pos, what string, k float64, args 
 	pool.collect(mini)
 	l := newLowering(0, 0, &pool)
 	l.tape(mini)
-	w := make([]float64, int(l.base)+len(l.code))
+	f := l.schedule()
+	w := make([]float64, int(l.base)+len(f.code))
 	copy(w, pool.vals)
-	forward(l.code, w, int(l.base))
+	forward(f, w, int(l.base))
 	if r := w[mini.out]; !finite(r) {
 		return ref{}, mini.valueFault(gather(make([]float64, len(mini.ops)), w, mini.slot, len(mini.ops)))
 	}

@@ -68,7 +68,7 @@ func (e *Eval) derivFault(t *tape, wrt string) *EvalError {
 
 // values runs the forward program of a group and copies out the value of
 // each of its tapes.
-func (e *Eval) values(dst []float64, tapes []*tape, code []instr) error {
+func (e *Eval) values(dst []float64, tapes []*tape, code *fwdProgram) error {
 	forward(code, e.w, e.prog.base)
 	for i, t := range tapes {
 		r, err := e.value(t)
@@ -170,7 +170,7 @@ func (e *Eval) OutputGradients(dx, dp *mat.Dense, x, p []float64, cols []int) er
 
 // gradRows sets dx[i][j] = d tapes[i] / d x[j] when dx is not nil, and
 // dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil.
-func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, rev []batch, cols []int) error {
+func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev []batch, cols []int) error {
 	if dp != nil {
 		for _, c := range cols {
 			if c < 0 || c >= e.prog.np {

@@ -1,6 +1,10 @@
 package jacobian
 
-import "math"
+import (
+	"cmp"
+	"math"
+	"slices"
+)
 
 // constPool numbers the distinct constants of a program (by bits, so 0 and
 // -0 stay apart) in order of first use.
@@ -43,6 +47,7 @@ type lowering struct {
 	code   []instr         // the forward program
 	cse    map[instr]int32 // instruction -> index in w of its value
 	dnext  int32           // start of the next tape's region of d
+	tapes  []*tape         // the tapes lowered, in order
 	sweeps []sweep         // reverse sweep of each tape, in order
 }
 
@@ -102,6 +107,7 @@ func (l *lowering) tape(t *tape) {
 		t.slot[k] = i
 	}
 	t.out = t.slot[t.root]
+	l.tapes = append(l.tapes, t)
 	l.reverse(t)
 }
 
@@ -226,4 +232,71 @@ func (l *lowering) batches() []batch {
 		}
 	}
 	return out
+}
+
+// schedule orders the forward program by level (an instruction's level is
+// one more than its operands' highest) and, within a level, by op, then
+// renumbers the temporaries everywhere they are referred to: the tapes'
+// value slots and the reverse steps. The values are unchanged (each is the
+// same operation on the same operands); only the order in which independent
+// instructions run changes. It returns the program with its runs.
+func (l *lowering) schedule() *fwdProgram {
+	n := len(l.code)
+	level := make([]int32, n)
+	for k, o := range l.code {
+		for _, a := range []int32{o.a, o.b} {
+			if a >= l.base {
+				level[k] = max(level[k], level[a-l.base]+1)
+			}
+		}
+	}
+	order := make([]int, n)
+	for k := range order {
+		order[k] = k
+	}
+	slices.SortStableFunc(order, func(i, j int) int {
+		if c := cmp.Compare(level[i], level[j]); c != 0 {
+			return c
+		}
+		return cmp.Compare(l.code[i].code, l.code[j].code)
+	})
+	newIdx := make([]int32, n)
+	for k, old := range order {
+		newIdx[old] = int32(k)
+	}
+	re := func(i int32) int32 {
+		if i >= l.base {
+			return l.base + newIdx[i-l.base]
+		}
+		return i
+	}
+	f := &fwdProgram{code: make([]instr, n)}
+	for k, old := range order {
+		o := l.code[old]
+		o.a, o.b = re(o.a), re(o.b)
+		if o.a < 0 || o.b < 0 || o.a >= l.base+int32(k) || o.b >= l.base+int32(k) {
+			panic("jacobian: forward instruction reads a value not computed before it")
+		}
+		f.code[k] = o
+		if len(f.runs) > 0 && f.runs[len(f.runs)-1].code == o.code {
+			f.runs[len(f.runs)-1].n++
+		} else {
+			f.runs = append(f.runs, run{code: o.code, n: 1})
+		}
+	}
+	l.code = f.code
+	for _, t := range l.tapes {
+		for k, s := range t.slot {
+			t.slot[k] = re(s)
+		}
+		t.out = re(t.out)
+	}
+	for _, sw := range l.sweeps {
+		for i := range sw.lanes {
+			r := &sw.lanes[i]
+			r.va, r.vb, r.vk = re(r.va), re(r.vb), re(r.vk)
+		}
+	}
+	clear(l.cse) // indices are stale now; no tape may be added after schedule
+	return f
 }

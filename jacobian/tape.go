@@ -146,53 +146,90 @@ type tape struct {
 	aslot   []int32 // index in d of the adjoint of each source op up to root
 }
 
-// forward runs a forward program on the value space w (x, p and the
-// constants in place), filling the temporaries from w[base].
-func forward(code []instr, w []float64, base int) {
-	tmp := w[base : base+len(code)]
-	for k, o := range code {
-		switch o.code {
+// fwdProgram is the forward program of a group: its instructions in an
+// order where each comes after its operands, sorted so that instructions of
+// the same op stand together in runs (one dispatch per run), and every
+// instruction of a run is independent of the others in it.
+type fwdProgram struct {
+	code []instr
+	runs []run
+}
+
+// run is a stretch of n consecutive instructions with the same op.
+type run struct {
+	code opcode
+	n    int32
+}
+
+// forward runs f on the value space w (x, p and the constants in place),
+// filling the temporaries from w[base]. Operands of instruction k are below
+// base+k (checked when f was built), so once w is known to be long enough
+// they are read without further checks.
+func forward(f *fwdProgram, w []float64, base int) {
+	tmp := w[base : base+len(f.code)]
+	wp := unsafe.Pointer(unsafe.SliceData(w))
+	k := 0
+	for _, r := range f.runs {
+		code := f.code[k : k+int(r.n)]
+		out := tmp[k : k+int(r.n)]
+		k += int(r.n)
+		switch r.code {
 		case opAdd:
-			tmp[k] = w[o.a] + w[o.b]
+			for i, o := range code {
+				out[i] = *at(wp, o.a) + *at(wp, o.b)
+			}
 		case opSub:
-			tmp[k] = w[o.a] - w[o.b]
+			for i, o := range code {
+				out[i] = *at(wp, o.a) - *at(wp, o.b)
+			}
 		case opMul:
-			tmp[k] = w[o.a] * w[o.b]
+			for i, o := range code {
+				out[i] = *at(wp, o.a) * *at(wp, o.b)
+			}
 		case opDiv:
-			tmp[k] = w[o.a] / w[o.b]
-		case opNeg:
-			tmp[k] = -w[o.a]
-		case opSq:
-			a := w[o.a]
-			tmp[k] = a * a
-		case opPowC, opPow:
-			tmp[k] = math.Pow(w[o.a], w[o.b])
-		case opExp:
-			tmp[k] = math.Exp(w[o.a])
-		case opLog:
-			tmp[k] = math.Log(w[o.a])
-		case opLog10:
-			tmp[k] = math.Log10(w[o.a])
-		case opSqrt:
-			tmp[k] = math.Sqrt(w[o.a])
-		case opAbs:
-			tmp[k] = math.Abs(w[o.a])
-		case opMin:
-			a, b := w[o.a], w[o.b]
-			if b < a || b != b {
-				a = b
+			for i, o := range code {
+				out[i] = *at(wp, o.a) / *at(wp, o.b)
 			}
-			tmp[k] = a
-		case opMax:
-			a, b := w[o.a], w[o.b]
-			if b > a || b != b {
-				a = b
-			}
-			tmp[k] = a
 		default:
-			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
+			for i, o := range code {
+				out[i] = forwardOther(o, wp)
+			}
 		}
 	}
+}
+
+// forwardOther is the value of an instruction of a less common op.
+func forwardOther(o instr, w unsafe.Pointer) float64 {
+	a, b := *at(w, o.a), *at(w, o.b)
+	switch o.code {
+	case opNeg:
+		return -a
+	case opSq:
+		return a * a
+	case opPowC, opPow:
+		return math.Pow(a, b)
+	case opExp:
+		return math.Exp(a)
+	case opLog:
+		return math.Log(a)
+	case opLog10:
+		return math.Log10(a)
+	case opSqrt:
+		return math.Sqrt(a)
+	case opAbs:
+		return math.Abs(a)
+	case opMin:
+		if b < a || b != b {
+			a = b
+		}
+		return a
+	case opMax:
+		if b > a || b != b {
+			a = b
+		}
+		return a
+	}
+	panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 }
 
 // reverse runs the adjoint sweeps of tapes, whose steps are batches, after
