@@ -26,8 +26,9 @@ type Program struct {
 	// Forward programs of the equations, outputs, defines and checks: the
 	// values of all tapes of the group, temporaries from w[base].
 	eqFwd, outFwd, defFwd, chkFwd *fwdProgram
-	// Reverse sweeps of the equations and of the outputs, in batches.
-	eqRev, outRev []batch
+	// Reverse sweeps of the equations and of the outputs, in batches: all
+	// steps, and only those leading to the unknowns or to the parameters.
+	eqRev, outRev revSweeps
 	base          int
 	size          int // length of w: base + the longest forward program
 	dsize         int // length of d: the largest group's adjoint regions
@@ -95,7 +96,7 @@ func Compile(sys *model.System) (*Program, error) {
 	prog.consts = pool.vals
 	prog.base = prog.nx + prog.np + len(pool.vals)
 	prog.size = prog.base
-	lower := func(ts []*tape) (*fwdProgram, []batch) {
+	lower := func(ts []*tape) (*fwdProgram, revSweeps) {
 		l := newLowering(prog.nx, prog.np, &pool)
 		for _, t := range ts {
 			l.tape(t)
@@ -103,7 +104,7 @@ func Compile(sys *model.System) (*Program, error) {
 		f := l.schedule()
 		prog.size = max(prog.size, prog.base+len(f.code))
 		prog.dsize = max(prog.dsize, int(l.dnext))
-		return f, l.batches()
+		return f, revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP)}
 	}
 	prog.eqFwd, prog.eqRev = lower(prog.eqs)
 	prog.outFwd, prog.outRev = lower(prog.outs)
@@ -119,6 +120,12 @@ func Compile(sys *model.System) (*Program, error) {
 	}
 	prog.pattern = pat
 	return prog, nil
+}
+
+// revSweeps are the reverse sweeps of a group of tapes in batches, all steps
+// or only those whose result depends on x or on p.
+type revSweeps struct {
+	all, x, p []batch
 }
 
 // maxErrors is the number of errors Compile reports before it stops.

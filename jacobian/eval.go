@@ -60,9 +60,12 @@ func (e *Eval) value(t *tape) (float64, error) {
 	return r, nil
 }
 
-// derivFault describes a derivative of t that is not finite, after value
-// and reverse.
-func (e *Eval) derivFault(t *tape, wrt string) *EvalError {
+// derivFault describes a derivative of t, one of tapes, that is not
+// finite. It runs every step of the group's reverse sweeps first (the
+// caller may have run only those it needed), so that the adjoints of the
+// source form are all there to examine.
+func (e *Eval) derivFault(tapes []*tape, rev *revSweeps, t *tape, wrt string) *EvalError {
+	reverse(tapes, rev.all, e.d, e.w)
 	return t.derivFault(gather(e.vals, e.w, t.slot, len(t.ops)), gather(e.adj, e.d, t.aslot, len(t.aslot)), wrt)
 }
 
@@ -127,7 +130,7 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
 	}
 	forward(e.prog.eqFwd, e.w, e.prog.base)
-	reverse(e.prog.eqs, e.prog.eqRev, e.d, e.w)
+	reverse(e.prog.eqs, e.prog.eqRev.x, e.d, e.w)
 	for i, t := range e.prog.eqs {
 		r, err := e.value(t)
 		if err != nil {
@@ -140,7 +143,7 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		for k, d := range e.d[t.adj0 : int(t.adj0)+len(row)] {
 			if !finite(d) {
 				vr := t.vars[k]
-				return e.derivFault(t, e.prog.xNames[vr.index])
+				return e.derivFault(e.prog.eqs, &e.prog.eqRev, t, e.prog.xNames[vr.index])
 			}
 			row[k] = d
 		}
@@ -153,7 +156,7 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 func (e *Eval) ParamJacobian(dst *mat.Dense, x, p []float64, cols []int) error {
 	e.check(x, p)
 	checkDims("dst", dst, len(e.prog.eqs), len(cols))
-	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, e.prog.eqRev, cols)
+	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, &e.prog.eqRev, cols)
 }
 
 // OutputGradients sets dx to dy/dx (one row per output, one column per
@@ -165,12 +168,12 @@ func (e *Eval) OutputGradients(dx, dp *mat.Dense, x, p []float64, cols []int) er
 	if dp != nil {
 		checkDims("dp", dp, nout, len(cols))
 	}
-	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, e.prog.outRev, cols)
+	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, &e.prog.outRev, cols)
 }
 
 // gradRows sets dx[i][j] = d tapes[i] / d x[j] when dx is not nil, and
 // dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil.
-func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev []batch, cols []int) error {
+func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev *revSweeps, cols []int) error {
 	if dp != nil {
 		for _, c := range cols {
 			if c < 0 || c >= e.prog.np {
@@ -179,7 +182,14 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev 
 		}
 	}
 	forward(code, e.w, e.prog.base)
-	reverse(tapes, rev, e.d, e.w)
+	steps := rev.all
+	switch {
+	case dp == nil:
+		steps = rev.x
+	case dx == nil:
+		steps = rev.p
+	}
+	reverse(tapes, steps, e.d, e.w)
 	for i, t := range tapes {
 		if _, err := e.value(t); err != nil {
 			return err
@@ -190,7 +200,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev 
 			for k, vr := range t.vars {
 				d := e.d[int(t.adj0)+k]
 				if !finite(d) {
-					return e.derivFault(t, e.prog.xNames[vr.index])
+					return e.derivFault(tapes, rev, t, e.prog.xNames[vr.index])
 				}
 				row[vr.index] = d
 			}
@@ -211,7 +221,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev 
 				e.padj[vr.index] = 0
 			}
 			if bad >= 0 {
-				return e.derivFault(t, e.prog.pNames[bad])
+				return e.derivFault(tapes, rev, t, e.prog.pNames[bad])
 			}
 		}
 	}

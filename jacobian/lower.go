@@ -55,7 +55,15 @@ type lowering struct {
 type sweep struct {
 	code  []opcode
 	lanes []rlane
+	deps  []uint8 // for each step, whether its result depends on x (depX), on p (depP)
 }
+
+// Dependence of a value on the unknowns and on the parameters.
+const (
+	depX uint8 = 1 << iota
+	depP
+	depAll = depX | depP
+)
 
 func newLowering(nx, np int, pool *constPool) *lowering {
 	return &lowering{
@@ -150,6 +158,21 @@ func (l *lowering) reverse(t *tape) {
 
 	// Operands: the first step to reach one (in sweep order) adds to zero.
 	reached := make([]bool, n)
+	dep := make([]uint8, n)
+	for k := range n {
+		switch o := t.ops[k]; o.code {
+		case opVar:
+			dep[k] = depX
+		case opParam:
+			dep[k] = depP
+		case opConst:
+		default:
+			dep[k] = dep[o.a]
+			if o.code.binary() {
+				dep[k] |= dep[o.b]
+			}
+		}
+	}
 	target := func(s int32) (ta, sa int32) {
 		switch {
 		case t.ops[s].code == opConst:
@@ -180,6 +203,7 @@ func (l *lowering) reverse(t *tape) {
 			r.tb, r.sb = dSink, dZero
 		}
 		sw.lanes = append(sw.lanes, r)
+		sw.deps = append(sw.deps, dep[k])
 	}
 	for k := range n - 1 {
 		if c := t.ops[k].code; c != opConst && !reached[k] {
@@ -190,12 +214,29 @@ func (l *lowering) reverse(t *tape) {
 }
 
 // batches gathers the sweeps of the tapes lowered so far into batches, one
-// per distinct sequence of ops, in order of first appearance.
-func (l *lowering) batches() []batch {
+// per distinct sequence of ops, in order of first appearance, keeping only
+// the steps whose result depends on what need asks for. A step whose result
+// does not depend on x only passes derivatives on to parameters and
+// constants, so dropping it changes no derivative with respect to x (and
+// the other way round): every step reaching an x-dependent adjoint is kept,
+// the first to reach it included.
+func (l *lowering) batches(need uint8) []batch {
+	sweeps := l.sweeps
+	if need != depAll {
+		sweeps = make([]sweep, len(l.sweeps))
+		for i, sw := range l.sweeps {
+			for s, dep := range sw.deps {
+				if dep&need != 0 {
+					sweeps[i].code = append(sweeps[i].code, sw.code[s])
+					sweeps[i].lanes = append(sweeps[i].lanes, sw.lanes[s])
+				}
+			}
+		}
+	}
 	var out []batch
 	var members [][]int
 	index := map[string]int{}
-	for i, sw := range l.sweeps {
+	for i, sw := range sweeps {
 		if len(sw.code) == 0 {
 			continue
 		}
@@ -214,7 +255,7 @@ func (l *lowering) batches() []batch {
 		bt.k = len(members[b])
 		bt.lanes = make([]rlane, len(bt.code)*bt.k)
 		for lane, i := range members[b] {
-			for s, r := range l.sweeps[i].lanes {
+			for s, r := range sweeps[i].lanes {
 				bt.lanes[s*bt.k+lane] = r
 				for _, v := range []int32{r.va, r.vb, r.vk} {
 					if v < 0 {
