@@ -38,6 +38,21 @@ func analyzeBench(b *testing.B, n, nd int, opts *Options) {
 	}
 }
 
+// analyzerBench is analyzeBench with one Analyzer for every call, as an
+// envelope sweep uses it.
+func analyzerBench(b *testing.B, n, nd int, opts *Options) {
+	g := benchGains(n, nd)
+	z := NewAnalyzer(opts)
+	b.ReportAllocs()
+	for b.Loop() {
+		a, err := z.Analyze(g)
+		if err != nil {
+			b.Fatal(err)
+		}
+		analysisSink = a
+	}
+}
+
 // briefOpts are the options of an envelope sweep.
 var briefOpts = &Options{Brief: true, MaxPairings: -1}
 
@@ -51,3 +66,10 @@ func BenchmarkAnalyzeBrief3(b *testing.B)   { analyzeBench(b, 3, 0, briefOpts) }
 func BenchmarkAnalyzeBrief4(b *testing.B)   { analyzeBench(b, 4, 0, briefOpts) }
 func BenchmarkAnalyzeBrief2Kd(b *testing.B) { analyzeBench(b, 2, 2, briefOpts) }
 func BenchmarkAnalyzeBrief4Kd(b *testing.B) { analyzeBench(b, 4, 2, briefOpts) }
+
+func BenchmarkAnalyzerBrief2(b *testing.B)   { analyzerBench(b, 2, 0, briefOpts) }
+func BenchmarkAnalyzerBrief3(b *testing.B)   { analyzerBench(b, 3, 0, briefOpts) }
+func BenchmarkAnalyzerBrief4(b *testing.B)   { analyzerBench(b, 4, 0, briefOpts) }
+func BenchmarkAnalyzerBrief8(b *testing.B)   { analyzerBench(b, 8, 0, briefOpts) }
+func BenchmarkAnalyzerBrief2Kd(b *testing.B) { analyzerBench(b, 2, 2, briefOpts) }
+func BenchmarkAnalyzerBrief4Kd(b *testing.B) { analyzerBench(b, 4, 2, briefOpts) }

@@ -64,53 +64,78 @@ func ParseScaling(s string) (Scaling, error) {
 // number do not depend on the scaling;
 // singular values, the plain condition number and disturbance gains do.
 func (g *GainSet) Scaled(s Scaling) (k, kd *mat.Dense, err error) {
-	g.check()
-	factor := func(sig Signal, role string) (float64, error) {
-		switch s {
-		case ScaleNone:
-			return 1, nil
-		case ScaleSpan:
-			if !(sig.Span > 0) || isInfOrNaN(sig.Span) {
-				return 0, fmt.Errorf("interact: span scaling needs a positive span for %s %q: give it a span", role, sig.Name)
-			}
-			return sig.Span, nil
-		case ScaleNominal:
-			if sig.Nominal == 0 || isInfOrNaN(sig.Nominal) {
-				return 0, fmt.Errorf("interact: nominal scaling needs a non-zero nominal value for %s %q: give it a nominal value or use span scaling", role, sig.Name)
-			}
-			return sig.Nominal, nil
-		}
-		return 0, fmt.Errorf("interact: unknown scaling %v", s)
+	k = new(mat.Dense)
+	if g.Kd != nil {
+		kd = new(mat.Dense)
 	}
-	fy := make([]float64, len(g.Outputs))
-	for i, o := range g.Outputs {
-		if fy[i], err = factor(o, "output"); err != nil {
-			return nil, nil, err
-		}
-	}
-	scale := func(m *mat.Dense, cols []Signal, role string) (*mat.Dense, error) {
-		r, c := m.Dims()
-		out := mat.NewDense(r, c, nil)
-		for j := 0; j < c; j++ {
-			fu, err := factor(cols[j], role)
-			if err != nil {
-				return nil, err
-			}
-			for i := 0; i < r; i++ {
-				out.Set(i, j, m.At(i, j)*fu/fy[i])
-			}
-		}
-		return out, nil
-	}
-	if k, err = scale(g.K, g.Inputs, "input"); err != nil {
+	if _, err := g.scaledInto(s, k, kd, nil); err != nil {
 		return nil, nil, err
 	}
-	if g.Kd != nil {
-		if kd, err = scale(g.Kd, g.Disturbances, "disturbance"); err != nil {
-			return nil, nil, err
+	return k, kd, nil
+}
+
+// scaledInto is Scaled storing the scaled K in k and, when the gain set has
+// disturbances, the scaled Kd in kd, reusing their storage and fy (the
+// output factors, returned).
+func (g *GainSet) scaledInto(s Scaling, k, kd *mat.Dense, fy []float64) ([]float64, error) {
+	g.check()
+	var err error
+	fy = resizeFloats(fy, len(g.Outputs))
+	for i, o := range g.Outputs {
+		if fy[i], err = scaleFactor(s, o, "output"); err != nil {
+			return fy, err
 		}
 	}
-	return k, kd, nil
+	if err := scaleInto(k, g.K, g.Inputs, "input", s, fy); err != nil {
+		return fy, err
+	}
+	if g.Kd != nil {
+		if err := scaleInto(kd, g.Kd, g.Disturbances, "disturbance", s, fy); err != nil {
+			return fy, err
+		}
+	}
+	return fy, nil
+}
+
+func scaleInto(out, m *mat.Dense, cols []Signal, role string, s Scaling, fy []float64) error {
+	r, c := m.Dims()
+	reshape(out, r, c)
+	if s == ScaleNone {
+		// Every factor is 1 and v*1/1 is v: copy.
+		src, dst := m.RawMatrix(), out.RawMatrix()
+		for i := 0; i < r; i++ {
+			copy(dst.Data[i*dst.Stride:i*dst.Stride+c], src.Data[i*src.Stride:i*src.Stride+c])
+		}
+		return nil
+	}
+	for j := 0; j < c; j++ {
+		fu, err := scaleFactor(s, cols[j], role)
+		if err != nil {
+			return err
+		}
+		for i := 0; i < r; i++ {
+			out.Set(i, j, m.At(i, j)*fu/fy[i])
+		}
+	}
+	return nil
+}
+
+func scaleFactor(s Scaling, sig Signal, role string) (float64, error) {
+	switch s {
+	case ScaleNone:
+		return 1, nil
+	case ScaleSpan:
+		if !(sig.Span > 0) || isInfOrNaN(sig.Span) {
+			return 0, fmt.Errorf("interact: span scaling needs a positive span for %s %q: give it a span", role, sig.Name)
+		}
+		return sig.Span, nil
+	case ScaleNominal:
+		if sig.Nominal == 0 || isInfOrNaN(sig.Nominal) {
+			return 0, fmt.Errorf("interact: nominal scaling needs a non-zero nominal value for %s %q: give it a nominal value or use span scaling", role, sig.Name)
+		}
+		return sig.Nominal, nil
+	}
+	return 0, fmt.Errorf("interact: unknown scaling %v", s)
 }
 
 // check panics when the matrices disagree with the signal lists: a

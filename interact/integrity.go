@@ -67,8 +67,58 @@ func forSubsets(n, size int, f func([]int)) {
 }
 
 func checkSubsystem(k mat.Matrix, p Pairing, s []int) SubsystemCheck {
+	var w integrityWork
+	var res SubsystemCheck
+	w.check(&res, asDense(k), p, s)
+	return res
+}
+
+// integrityWork is the reusable storage of the integrity checks.
+type integrityWork struct {
+	lu       luWork
+	sub, inv mat.Dense
+	set      []int
+}
+
+// failing appends to dst the failing checks of Integrity(k, p), in the same
+// order, reusing the storage of dst's spare capacity.
+func (w *integrityWork) failing(dst []SubsystemCheck, k *mat.Dense, p Pairing) []SubsystemCheck {
+	n, _ := k.Dims()
+	for size := n - 1; size >= 2; size-- {
+		// The subsets of 0..n-1 of this size in lexicographic order, as
+		// forSubsets gives them.
+		s := seqInto(w.set, size)
+		w.set = s
+		for {
+			if len(dst) < cap(dst) {
+				dst = dst[:len(dst)+1]
+			} else {
+				dst = append(dst, SubsystemCheck{})
+			}
+			if w.check(&dst[len(dst)-1], k, p, s); !dst[len(dst)-1].Fails {
+				dst = dst[:len(dst)-1]
+			}
+			i := size - 1
+			for i >= 0 && s[i] == n-size+i {
+				i--
+			}
+			if i < 0 {
+				break
+			}
+			s[i]++
+			for j := i + 1; j < size; j++ {
+				s[j] = s[j-1] + 1
+			}
+		}
+	}
+	return dst
+}
+
+// check stores in *res the check of the loops s, reusing res's slices.
+func (w *integrityWork) check(res *SubsystemCheck, k *mat.Dense, p Pairing, s []int) {
 	m := len(s)
-	sub := mat.NewDense(m, m, nil)
+	reshape(&w.sub, m, m)
+	sub := &w.sub
 	prod := 1.0
 	for a, i := range s {
 		for b, j := range s {
@@ -76,32 +126,24 @@ func checkSubsystem(k mat.Matrix, p Pairing, s []int) SubsystemCheck {
 		}
 		prod *= k.At(i, p[i])
 	}
-	res := SubsystemCheck{Auto: append([]int(nil), s...), Lambdas: make([]float64, m)}
-	var lu mat.LU
-	lu.Factorize(sub)
-	det, cond := lu.Det(), lu.Cond()
-	var inv mat.Dense
-	if cond <= ConditionLimit {
-		id := mat.NewDiagDense(m, nil)
-		for a := 0; a < m; a++ {
-			id.SetDiag(a, 1)
-		}
-		_ = lu.SolveTo(&inv, false, id) // cond is checked above
-	}
+	*res = SubsystemCheck{Auto: append(res.Auto[:0], s...), Lambdas: resizeFloats(res.Lambdas, m)}
+	// mat.LU's determinant, condition estimate and inverse (the inverse
+	// only counts when the condition is within the limit).
+	cond, det := w.lu.inverseDet(&w.inv, sub)
 	if !(cond <= ConditionLimit) {
 		res.NI = 0
 		for a := range res.Lambdas {
 			res.Lambdas[a] = math.NaN()
 		}
 		res.Fails = true
-		return res
+		return
 	}
 	res.NI = det / prod
 	if prod == 0 {
 		res.NI = math.NaN()
 	}
 	for a := range s {
-		res.Lambdas[a] = sub.At(a, a) * inv.At(a, a)
+		res.Lambdas[a] = sub.At(a, a) * w.inv.At(a, a)
 		if res.Lambdas[a] < 0 {
 			res.Fails = true
 		}
@@ -109,7 +151,6 @@ func checkSubsystem(k mat.Matrix, p Pairing, s []int) SubsystemCheck {
 	if !(res.NI > 0) {
 		res.Fails = true
 	}
-	return res
 }
 
 // Manual returns the outputs whose loops are in manual in this check, out of
@@ -163,6 +204,13 @@ func RDG(k, kd mat.Matrix, p Pairing) (*mat.Dense, error) {
 func rdgFrom(k, kd, x mat.Matrix, p Pairing) *mat.Dense {
 	n, nd := kd.Dims()
 	out := mat.NewDense(n, nd, nil)
+	rdgInto(out, k, kd, x, p)
+	return out
+}
+
+// rdgInto is rdgFrom into out (n × nd).
+func rdgInto(out *mat.Dense, k, kd, x mat.Matrix, p Pairing) {
+	n, nd := kd.Dims()
 	for d := 0; d < nd; d++ {
 		big := 0.0
 		for i := 0; i < n; i++ {
@@ -177,7 +225,6 @@ func rdgFrom(k, kd, x mat.Matrix, p Pairing) *mat.Dense {
 			out.Set(i, d, k.At(i, p[i])*x.At(p[i], d)/g)
 		}
 	}
-	return out
 }
 
 // Decoupler returns the ideal static decoupler D = K⁻¹ K̃ for the pairing p,

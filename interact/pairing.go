@@ -57,13 +57,31 @@ func (p Pairing) mustBePermutation(n int) {
 // transpositions, -1 for odd.
 func (p Pairing) sign() int {
 	n := len(p)
-	var visited [64]bool
-	var seen []bool
-	if n <= len(visited) {
-		seen = visited[:n]
-	} else {
-		seen = make([]bool, n)
+	if n > 64 {
+		return p.signLong()
 	}
+	var seen uint64
+	s := 1
+	for i := 0; i < n; i++ {
+		if seen&(1<<uint(i)) != 0 {
+			continue
+		}
+		l := 0
+		for j := i; seen&(1<<uint(j)) == 0; j = p[j] {
+			seen |= 1 << uint(j)
+			l++
+		}
+		if l%2 == 0 {
+			s = -s
+		}
+	}
+	return s
+}
+
+// signLong is sign for more than 64 loops.
+func (p Pairing) signLong() int {
+	n := len(p)
+	seen := make([]bool, n)
 	s := 1
 	for i := 0; i < n; i++ {
 		if seen[i] {

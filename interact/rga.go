@@ -36,9 +36,15 @@ func RGA(dst *mat.Dense, k mat.Matrix) error {
 // rgaDet is RGA that also returns det k and leaves K⁻¹ in inv, all from one
 // LU factorisation (det is NaN and inv unset when k is exactly singular).
 func rgaDet(dst, inv *mat.Dense, k mat.Matrix) (det float64, err error) {
+	var w luWork
+	return rgaDetWith(&w, dst, inv, k)
+}
+
+// rgaDetWith is rgaDet with the LU in w's storage.
+func rgaDetWith(w *luWork, dst, inv *mat.Dense, k mat.Matrix) (det float64, err error) {
 	r, c := k.Dims()
 	reuseAs(dst, r, c)
-	cond, det := inverseDet(inv, k)
+	cond, det := w.inverseDet(inv, asDense(k))
 	if math.IsInf(cond, 1) {
 		for i := 0; i < r; i++ {
 			for j := 0; j < c; j++ {
@@ -47,7 +53,12 @@ func rgaDet(dst, inv *mat.Dense, k mat.Matrix) (det float64, err error) {
 		}
 		return det, mat.Condition(cond)
 	}
-	dst.MulElem(k, inv.T())
+	// Λ = K ∘ (K⁻¹)ᵀ, element by element as MulElem would.
+	for i := 0; i < r; i++ {
+		for j := 0; j < c; j++ {
+			dst.Set(i, j, k.At(i, j)*inv.At(j, i))
+		}
+	}
 	if cond > ConditionLimit {
 		return det, mat.Condition(cond)
 	}
@@ -55,7 +66,7 @@ func rgaDet(dst, inv *mat.Dense, k mat.Matrix) (det float64, err error) {
 }
 
 // inverse stores the inverse of the square k in dst from one LU
-// factorisation and returns k's condition number (1-norm estimate); +Inf
+// factorisation and returns k's condition number (∞-norm estimate); +Inf
 // when k is exactly singular, in which case dst is left unset.
 func inverse(dst *mat.Dense, k mat.Matrix) float64 {
 	cond, _ := inverseDet(dst, k)
@@ -65,26 +76,15 @@ func inverse(dst *mat.Dense, k mat.Matrix) float64 {
 // inverseDet is inverse that also returns det k from the same
 // factorisation, computed exactly as mat.Det computes it.
 func inverseDet(dst *mat.Dense, k mat.Matrix) (cond, det float64) {
-	n, _ := k.Dims()
-	var lu mat.LU
-	lu.Factorize(k)
-	logDet, sign := lu.LogDet() // as mat.Det does it
-	det = math.Exp(logDet) * sign
-	cond = lu.Cond()
-	if math.IsInf(cond, 1) || math.IsNaN(cond) {
-		return math.Inf(1), det
+	var w luWork
+	return w.inverseDet(dst, asDense(k))
+}
+
+func asDense(k mat.Matrix) *mat.Dense {
+	if d, ok := k.(*mat.Dense); ok {
+		return d
 	}
-	dst.Reset()
-	id := mat.NewDiagDense(n, nil)
-	for i := 0; i < n; i++ {
-		id.SetDiag(i, 1)
-	}
-	if err := lu.SolveTo(dst, false, id); err != nil {
-		if c := asCondition(err); math.IsInf(float64(c), 1) {
-			return math.Inf(1), det
-		}
-	}
-	return cond, det
+	return mat.DenseCopyOf(k)
 }
 
 // RGAPinv stores in dst the relative gain array of a non-square matrix k
@@ -171,8 +171,15 @@ func Niederlinski(k mat.Matrix, p Pairing) float64 {
 // niederlinski uses det(K_p) = sign(p)·det(K), so each pairing costs O(n).
 func niederlinski(k mat.Matrix, p Pairing, det float64) float64 {
 	prod := 1.0
-	for i, j := range p {
-		prod *= k.At(i, j)
+	if d, ok := k.(*mat.Dense); ok {
+		raw := d.RawMatrix()
+		for i, j := range p {
+			prod *= raw.Data[i*raw.Stride+j]
+		}
+	} else {
+		for i, j := range p {
+			prod *= k.At(i, j)
+		}
 	}
 	if prod == 0 {
 		return math.NaN()
@@ -210,12 +217,17 @@ func RGANumber(rga mat.Matrix, p Pairing) float64 {
 func ElementSensitivity(rga mat.Matrix) *mat.Dense {
 	r, c := rga.Dims()
 	out := mat.NewDense(r, c, nil)
+	elementSensitivityInto(out, rga)
+	return out
+}
+
+func elementSensitivityInto(out *mat.Dense, rga mat.Matrix) {
+	r, c := rga.Dims()
 	for i := 0; i < r; i++ {
 		for j := 0; j < c; j++ {
 			out.Set(i, j, 1/rga.At(i, j))
 		}
 	}
-	return out
 }
 
 func reuseAs(dst *mat.Dense, r, c int) {

@@ -59,8 +59,9 @@ func (w *luWork) resize(n int) {
 
 // inverseDet is the package's inverseDet (mat.LU: its condition estimate,
 // det from LogDet, K⁻¹ by solving with the identity) into reusable
-// storage. dst must be n×n (or empty); it is left unchanged when k is
-// exactly singular.
+// storage. dst is made n×n, reusing its storage; it is left unchanged when
+// k is exactly singular. cond is gonum's ∞-norm estimate, or for a
+// well-conditioned 2x2 the exact ∞-norm condition number (see inverseDet2).
 func (w *luWork) inverseDet(dst *mat.Dense, k *mat.Dense) (cond, det float64) {
 	n, _ := k.Dims()
 	if n == 2 {
@@ -81,9 +82,7 @@ func (w *luWork) inverseDet(dst *mat.Dense, k *mat.Dense) (cond, det float64) {
 	if math.IsInf(cond, 1) || math.IsNaN(cond) {
 		return math.Inf(1), det
 	}
-	if dst.IsEmpty() {
-		dst.ReuseAs(n, n)
-	}
+	reshape(dst, n, n)
 	d := dst.RawMatrix()
 	for i := 0; i < n; i++ {
 		row := d.Data[i*d.Stride : i*d.Stride+n]
@@ -177,9 +176,7 @@ func inverseDet2(dst *mat.Dense, k *mat.Dense) (cond, det float64, ok bool) {
 		sign *= -1
 	}
 	det = math.Exp(math.Log(math.Abs(a00))+math.Log(math.Abs(u11))) * sign
-	if dst.IsEmpty() {
-		dst.ReuseAs(2, 2)
-	}
+	reshape(dst, 2, 2)
 	d := dst.RawMatrix()
 	d.Data[0], d.Data[1] = b00, b01
 	d.Data[d.Stride], d.Data[d.Stride+1] = b10, b11
@@ -307,6 +304,9 @@ func resizeFloats(s []float64, n int) []float64 {
 	return s[:n]
 }
 
+// dbdsqrTol is Dbdsqr's relative tolerance, computed as Dbdsqr computes it.
+var dbdsqrTol = math.Max(10, math.Min(100, math.Pow(0x1p-53, -1.0/8))) * 0x1p-53
+
 // bidiag2 is gonum's Dgebd2 on the 2x2 [a00 a01; a10 a11]: one Householder
 // reflector H = I - tau·v·vᵀ, v = (1, v1), zeroes a10 and leaves the upper
 // bidiagonal [d0 e0; 0 d1]. The row reflector of a 2x2 is the identity.
@@ -361,9 +361,8 @@ func svd2(s, u0, u1, v0, v1 []float64, k *mat.Dense) bool {
 	}
 	vt00, vt01, vt10, vt11 := 1.0, 0.0, 0.0, 1.0
 	// Dbdsqr, n = 2, upper.
-	const eps = 0x1p-53
 	const unfl = 0x1p-1022
-	tol := math.Max(10, math.Min(100, math.Pow(eps, -1.0/8))) * eps
+	tol := dbdsqrTol
 	sminoa := math.Abs(d0)
 	if sminoa != 0 {
 		mu := math.Abs(d1) * (sminoa / (sminoa + math.Abs(e0)))
@@ -403,17 +402,17 @@ func svd2(s, u0, u1, v0, v1 []float64, k *mat.Dense) bool {
 	return true
 }
 
-// condNone2 is σ1/σ2 of the 2x2 m as gonum's Dgesvd without vectors gives
-// it (Dgebd2, then Dlasq1, which for n = 2 is Dlas2). ok is false for
-// matrices out of range.
-func condNone2(m00, m01, m10, m11 float64) (cond float64, ok bool) {
+// condNone2 is the singular values of the 2x2 m as gonum's Dgesvd without
+// vectors gives them (Dgebd2, then Dlasq1, which for n = 2 is Dlas2). ok is
+// false for matrices out of range.
+func condNone2(m00, m01, m10, m11 float64) (ssmin, ssmax float64, ok bool) {
 	if !in2Range(m00, m01, m10, m11) {
-		return 0, false
+		return 0, 0, false
 	}
 	d0, e0, d1, hv, tau := bidiag2(m00, m01, m10, m11)
 	if tau != 0 && hv == 0 {
-		return 0, false
+		return 0, 0, false
 	}
-	ssmin, ssmax := impl.Dlas2(d0, e0, d1)
-	return ssmax / ssmin, true
+	ssmin, ssmax = impl.Dlas2(d0, e0, d1)
+	return ssmin, ssmax, true
 }

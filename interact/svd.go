@@ -69,32 +69,56 @@ func MinConditionNumber(k mat.Matrix) (gamma float64, dl, dr []float64, err erro
 // minConditionNumber is MinConditionNumber given the SVD s of kd (only
 // read).
 func minConditionNumber(kd *mat.Dense, s *SVDResult) (gamma float64, dl, dr []float64, err error) {
-	n, _ := kd.Dims()
-	if s.Values[n-1] == 0 || s.Cond > 1/0x1p-52 {
-		return 0, nil, nil, &SingularError{What: "K", Cond: s.Cond}
+	var w minWork
+	if gamma, err = minCondInto(kd, s, &dl, &dr, &w); err != nil {
+		return 0, nil, nil, err
 	}
-	if n == 1 {
-		return 1, []float64{1}, []float64{1}, nil
-	}
-	if n == 2 {
-		if g, dl, dr, ok := minCond2(kd); ok {
-			return g, dl, dr, nil
-		}
-	}
-	return minCondNumeric(kd)
+	return gamma, dl, dr, nil
 }
 
-// minCond2 is the 2x2 case in closed form. With every gain non-zero, the
-// scalings that make |m11| = |m22| and |m12| = |m21| in M = Dl K Dr attain
-// γ*: the objective is convex in the log-scalings and symmetric about that
-// point. Its value agrees with Grosdidier, Morari & Holt (1985),
-// γ* = ||Λ||_i1 + sqrt(||Λ||_i1² - 1) (Skogestad & Postlethwaite eq. A.70),
-// which the tests check against the numerical minimisation. A zero gain
+// minWork is the reusable storage of the minimisation.
+type minWork struct {
+	none, thin svdWork
+	m          mat.Dense
+}
+
+// minCondInto is minConditionNumber storing the scalings in *dl and *dr
+// (reusing their storage) and working in w.
+func minCondInto(kd *mat.Dense, s *SVDResult, dl, dr *[]float64, w *minWork) (gamma float64, err error) {
+	n, _ := kd.Dims()
+	if s.Values[n-1] == 0 || s.Cond > 1/0x1p-52 {
+		return 0, &SingularError{What: "K", Cond: s.Cond}
+	}
+	*dl, *dr = resizeFloats(*dl, n), resizeFloats(*dr, n)
+	if n == 1 {
+		(*dl)[0], (*dr)[0] = 1, 1
+		return 1, nil
+	}
+	if n == 2 {
+		if g, ok := minCond2(kd, *dl, *dr); ok {
+			return g, nil
+		}
+	}
+	g, l, r, err := minCondNumeric(kd, w)
+	copy(*dl, l)
+	copy(*dr, r)
+	return g, err
+}
+
+// minCond2 is the 2x2 case in closed form, the scalings stored in dl and dr.
+// With every gain non-zero, the scalings that make |m11| = |m22| and
+// |m12| = |m21| in M = Dl K Dr attain γ*: the objective is convex in the
+// log-scalings and symmetric about that point. Its value agrees with
+// Grosdidier, Morari & Holt (1985), γ* = ||Λ||_i1 + sqrt(||Λ||_i1² - 1)
+// (Skogestad & Postlethwaite eq. A.70), which the tests check against the
+// numerical minimisation; it is computed as σ1/σ2 of M (condNone2, the
+// arithmetic of gonum's SVD of a 2x2 written out), which unlike the formula
+// keeps full relative accuracy when γ* is close to 1. A zero gain
 // (triangular K) has no such point and is left to the numerical method.
-func minCond2(k *mat.Dense) (gamma float64, dl, dr []float64, ok bool) {
+func minCond2(k *mat.Dense, dl, dr []float64) (gamma float64, ok bool) {
 	a, b, c, d := math.Abs(k.At(0, 0)), math.Abs(k.At(0, 1)), math.Abs(k.At(1, 0)), math.Abs(k.At(1, 1))
 	if a == 0 || b == 0 || c == 0 || d == 0 {
-		return 0, nil, nil, false
+		return 0, false
 	}
 	// M = diag(1, q) K diag(1, s): |m11/m22| = |a/(q s d)| = 1 and
 	// |m12/m21| = |s b/(q c)| = 1.
@@ -102,27 +126,32 @@ func minCond2(k *mat.Dense) (gamma float64, dl, dr []float64, ok bool) {
 	q := a / (s * d)
 	// Geometric mean 1, as the numerical method returns them.
 	gq, gs := math.Sqrt(q), math.Sqrt(s)
-	dl, dr = []float64{1 / gq, q / gq}, []float64{1 / gs, s / gs}
-	m := mat.NewDense(2, 2, nil)
+	dl[0], dl[1] = 1/gq, q/gq
+	dr[0], dr[1] = 1/gs, s/gs
+	var m [2][2]float64
 	for i := 0; i < 2; i++ {
 		for j := 0; j < 2; j++ {
-			m.Set(i, j, dl[i]*k.At(i, j)*dr[j])
+			m[i][j] = dl[i] * k.At(i, j) * dr[j]
 		}
 	}
-	var svd mat.SVD
-	if !svd.Factorize(m, mat.SVDNone) {
-		return 0, nil, nil, false
+	ssmin, ssmax, ok := condNone2(m[0][0], m[0][1], m[1][0], m[1][1])
+	if !ok {
+		var svd mat.SVD
+		if !svd.Factorize(mat.NewDense(2, 2, []float64{m[0][0], m[0][1], m[1][0], m[1][1]}), mat.SVDNone) {
+			return 0, false
+		}
+		v := svd.Values(nil)
+		ssmax, ssmin = v[0], v[1]
 	}
-	v := svd.Values(nil)
-	if v[1] == 0 {
-		return 0, nil, nil, false
+	if ssmin == 0 {
+		return 0, false
 	}
-	return v[0] / v[1], dl, dr, true
+	return ssmax / ssmin, true
 }
 
 // minCondNumeric minimises γ(Dl K Dr) numerically for a non-singular K of
-// size n >= 2.
-func minCondNumeric(kd *mat.Dense) (gamma float64, dl, dr []float64, err error) {
+// size n >= 2, its SVDs in w's storage.
+func minCondNumeric(kd *mat.Dense, w *minWork) (gamma float64, dl, dr []float64, err error) {
 	n, _ := kd.Dims()
 	// Variables: a_1..a_{n-1}, b_1..b_{n-1}; a_0 = b_0 = 0 fix the two
 	// free common factors.
@@ -132,9 +161,8 @@ func minCondNumeric(kd *mat.Dense) (gamma float64, dl, dr []float64, err error) 
 		x0[i-1] = a0[i] - a0[0]
 		x0[n-1+i-1] = b0[i] - b0[0]
 	}
-	m := mat.NewDense(n, n, nil)
-	var svd mat.SVD
-	var u, v mat.Dense
+	reshape(&w.m, n, n)
+	m := &w.m
 	eval := func(x []float64, wantGrad bool, grad []float64) float64 {
 		for i := 0; i < n; i++ {
 			ea := 1.0
@@ -149,23 +177,23 @@ func minCondNumeric(kd *mat.Dense) (gamma float64, dl, dr []float64, err error) 
 				m.Set(i, j, ea*kd.At(i, j)*eb)
 			}
 		}
-		kind := mat.SVDNone
+		sw := &w.none
 		if wantGrad {
-			kind = mat.SVDThin
+			sw = &w.thin
 		}
-		if !svd.Factorize(m, kind) {
+		if !sw.factorize(m, wantGrad) {
 			return math.Inf(1)
 		}
-		s := svd.Values(nil)
+		s := sw.s
 		if s[n-1] == 0 {
 			return math.Inf(1)
 		}
 		if wantGrad {
-			svd.UTo(&u)
-			svd.VTo(&v)
+			// U is n×n with stride n; Vᵀ likewise, so V[i][j] = vt[j*n+i].
+			u, vt := sw.u, sw.vt
 			for i := 1; i < n; i++ {
-				grad[i-1] = u.At(i, 0)*u.At(i, 0) - u.At(i, n-1)*u.At(i, n-1)
-				grad[n-1+i-1] = v.At(i, 0)*v.At(i, 0) - v.At(i, n-1)*v.At(i, n-1)
+				grad[i-1] = u[i*n]*u[i*n] - u[i*n+n-1]*u[i*n+n-1]
+				grad[n-1+i-1] = vt[i]*vt[i] - vt[(n-1)*n+i]*vt[(n-1)*n+i]
 			}
 		}
 		return math.Log(s[0] / s[n-1])

@@ -103,7 +103,7 @@ func TestMinConditionNumberMatchesGMH(t *testing.T) {
 			t.Errorf("K=%v: γ* = %.9g, GMH formula %.9g", k.RawMatrix().Data, got, want)
 		}
 		// The closed-form scalings against the numerical minimisation.
-		num, _, _, err := minCondNumeric(k)
+		num, _, _, err := minCondNumeric(k, &minWork{})
 		if err != nil {
 			t.Fatal(err)
 		}

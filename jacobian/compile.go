@@ -25,14 +25,17 @@ type Program struct {
 
 	// Forward programs of the equations, outputs, defines and checks: the
 	// values of all tapes of the group, temporaries from w[base].
-	eqFwd, outFwd, defFwd, chkFwd []instr
-	base                          int
-	size                          int // length of w: base + the longest forward program
-	dsize                         int // length of d: nx + np + 2 + the longest reverse sweep
-	xNames                        []string
-	pNames                        []string
-	xTyp                          []float64 // typical magnitudes for finite-difference steps
-	pTyp                          []float64
+	eqFwd, outFwd, defFwd, chkFwd *fwdProgram
+	// Reverse sweeps of the equations and of the outputs, in batches: all
+	// steps, and only those leading to the unknowns or to the parameters.
+	eqRev, outRev revSweeps
+	base          int
+	size          int // length of w: base + the longest forward program
+	dsize         int // length of d: the largest group's adjoint regions
+	xNames        []string
+	pNames        []string
+	xTyp          []float64 // typical magnitudes for finite-difference steps
+	pTyp          []float64
 }
 
 // Compile compiles the equations, outputs, defines and checks of sys into
@@ -93,20 +96,20 @@ func Compile(sys *model.System) (*Program, error) {
 	prog.consts = pool.vals
 	prog.base = prog.nx + prog.np + len(pool.vals)
 	prog.size = prog.base
-	prog.dsize = prog.nx + prog.np + 2
-	lower := func(ts []*tape) []instr {
+	lower := func(ts []*tape) (*fwdProgram, revSweeps) {
 		l := newLowering(prog.nx, prog.np, &pool)
 		for _, t := range ts {
 			l.tape(t)
-			prog.dsize = max(prog.dsize, int(t.dbase)+len(t.rev))
 		}
-		prog.size = max(prog.size, prog.base+len(l.code))
-		return l.code
+		f := l.schedule()
+		prog.size = max(prog.size, prog.base+len(f.code))
+		prog.dsize = max(prog.dsize, int(l.dnext))
+		return f, revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP)}
 	}
-	prog.eqFwd = lower(prog.eqs)
-	prog.outFwd = lower(prog.outs)
-	prog.defFwd = lower(prog.defs)
-	prog.chkFwd = lower(prog.checks)
+	prog.eqFwd, prog.eqRev = lower(prog.eqs)
+	prog.outFwd, prog.outRev = lower(prog.outs)
+	prog.defFwd, _ = lower(prog.defs) // reverse sweeps kept only for describing errors
+	prog.chkFwd, _ = lower(prog.checks)
 
 	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
 	for i, t := range prog.eqs {
@@ -117,6 +120,12 @@ func Compile(sys *model.System) (*Program, error) {
 	}
 	prog.pattern = pat
 	return prog, nil
+}
+
+// revSweeps are the reverse sweeps of a group of tapes in batches, all steps
+// or only those whose result depends on x or on p.
+type revSweeps struct {
+	all, x, p []batch
 }
 
 // maxErrors is the number of errors Compile reports before it stops.
@@ -467,9 +476,10 @@ func (c *compiler) fold(code opcode, at model.Pos, what string, k float64, args 
 	pool.collect(mini)
 	l := newLowering(0, 0, &pool)
 	l.tape(mini)
-	w := make([]float64, int(l.base)+len(l.code))
+	f := l.schedule()
+	w := make([]float64, int(l.base)+len(f.code))
 	copy(w, pool.vals)
-	forward(l.code, w, int(l.base))
+	forward(f, w, int(l.base))
 	if r := w[mini.out]; !finite(r) {
 		return ref{}, mini.valueFault(gather(make([]float64, len(mini.ops)), w, mini.slot, len(mini.ops)))
 	}

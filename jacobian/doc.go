@@ -13,6 +13,15 @@
 // tape give the whole row of dF/dx and dF/dp. Finite differences are provided
 // only as a cross-check (JacobianFD, ParamJacobianFD).
 //
+// For speed the tapes are lowered before they run. Loads disappear: operands
+// index one value space holding x, p and the constants. The arithmetic of all
+// equations (or all outputs, ...) forms one forward program, in which a value
+// several tapes compute alike is computed once, ordered by level into runs of
+// the same operation. The reverse sweeps of tapes with the same sequence of
+// operations run side by side, each tape with its own adjoints. None of this
+// changes a number: every value and every derivative is the same operations
+// in the same order as the tape evaluated on its own, to the bit.
+//
 // A Program is immutable and may be shared by many goroutines; each goroutine
 // evaluates through its own Eval, which holds the work buffers. Eval methods do
 // not allocate.

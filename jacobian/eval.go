@@ -17,7 +17,7 @@ import (
 type Eval struct {
 	prog   *Program
 	w      []float64 // value space: x, p, the constants, the temporaries of a forward program
-	d      []float64 // adjoints: x, p, zero, sink, the temporaries of a tape
+	d      []float64 // adjoints: zero, sink, one region per tape of a group
 	vals   []float64 // values of the source form of a tape, gathered to describe an error
 	adj    []float64 // adjoints of the source form, gathered to describe an error
 	padj   []float64 // parameter adjoints, scattered by index, kept zero between uses
@@ -60,15 +60,18 @@ func (e *Eval) value(t *tape) (float64, error) {
 	return r, nil
 }
 
-// derivFault describes a derivative of t that is not finite, after value
-// and reverse.
-func (e *Eval) derivFault(t *tape, wrt string) *EvalError {
+// derivFault describes a derivative of t, one of tapes, that is not
+// finite. It runs every step of the group's reverse sweeps first (the
+// caller may have run only those it needed), so that the adjoints of the
+// source form are all there to examine.
+func (e *Eval) derivFault(tapes []*tape, rev *revSweeps, t *tape, wrt string) *EvalError {
+	reverse(tapes, rev.all, e.d, e.w)
 	return t.derivFault(gather(e.vals, e.w, t.slot, len(t.ops)), gather(e.adj, e.d, t.aslot, len(t.aslot)), wrt)
 }
 
 // values runs the forward program of a group and copies out the value of
 // each of its tapes.
-func (e *Eval) values(dst []float64, tapes []*tape, code []instr) error {
+func (e *Eval) values(dst []float64, tapes []*tape, code *fwdProgram) error {
 	forward(code, e.w, e.prog.base)
 	for i, t := range tapes {
 		r, err := e.value(t)
@@ -127,8 +130,9 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
 	}
 	forward(e.prog.eqFwd, e.w, e.prog.base)
+	reverse(e.prog.eqs, e.prog.eqRev.x, e.d, e.w)
 	for i, t := range e.prog.eqs {
-		r, err := e.gradient(t)
+		r, err := e.value(t)
 		if err != nil {
 			return err
 		}
@@ -136,10 +140,10 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 			f[i] = r
 		}
 		row := dst.Val[pat.RowPtr[i]:pat.RowPtr[i+1]]
-		for k, vr := range t.vars {
-			d := e.d[vr.index]
+		for k, d := range e.d[t.adj0 : int(t.adj0)+len(row)] {
 			if !finite(d) {
-				return e.derivFault(t, e.prog.xNames[vr.index])
+				vr := t.vars[k]
+				return e.derivFault(e.prog.eqs, &e.prog.eqRev, t, e.prog.xNames[vr.index])
 			}
 			row[k] = d
 		}
@@ -147,25 +151,12 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	return nil
 }
 
-// gradient runs the reverse sweep of t after the forward program of its
-// group, leaving the adjoint of every temporary and every unknown and
-// parameter of t in e.d. The value must be finite; the derivatives are
-// checked by the caller, for the symbols it asked for.
-func (e *Eval) gradient(t *tape) (float64, error) {
-	r, err := e.value(t)
-	if err != nil {
-		return r, err
-	}
-	t.reverse(e.d, e.w)
-	return r, nil
-}
-
 // ParamJacobian sets column k of dst to dF/dp[cols[k]] at (x, p); dst has one
 // row per equation and len(cols) columns.
 func (e *Eval) ParamJacobian(dst *mat.Dense, x, p []float64, cols []int) error {
 	e.check(x, p)
 	checkDims("dst", dst, len(e.prog.eqs), len(cols))
-	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, cols)
+	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, &e.prog.eqRev, cols)
 }
 
 // OutputGradients sets dx to dy/dx (one row per output, one column per
@@ -177,12 +168,12 @@ func (e *Eval) OutputGradients(dx, dp *mat.Dense, x, p []float64, cols []int) er
 	if dp != nil {
 		checkDims("dp", dp, nout, len(cols))
 	}
-	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, cols)
+	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, &e.prog.outRev, cols)
 }
 
 // gradRows sets dx[i][j] = d tapes[i] / d x[j] when dx is not nil, and
 // dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil.
-func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, cols []int) error {
+func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev *revSweeps, cols []int) error {
 	if dp != nil {
 		for _, c := range cols {
 			if c < 0 || c >= e.prog.np {
@@ -191,24 +182,32 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, cols []i
 		}
 	}
 	forward(code, e.w, e.prog.base)
+	steps := rev.all
+	switch {
+	case dp == nil:
+		steps = rev.x
+	case dx == nil:
+		steps = rev.p
+	}
+	reverse(tapes, steps, e.d, e.w)
 	for i, t := range tapes {
-		if _, err := e.gradient(t); err != nil {
+		if _, err := e.value(t); err != nil {
 			return err
 		}
 		if dx != nil {
 			row := dx.RawRowView(i)
 			clear(row)
-			for _, vr := range t.vars {
-				d := e.d[vr.index]
+			for k, vr := range t.vars {
+				d := e.d[int(t.adj0)+k]
 				if !finite(d) {
-					return e.derivFault(t, e.prog.xNames[vr.index])
+					return e.derivFault(tapes, rev, t, e.prog.xNames[vr.index])
 				}
 				row[vr.index] = d
 			}
 		}
 		if dp != nil {
-			for _, vr := range t.params {
-				e.padj[vr.index] = e.d[e.prog.nx+int(vr.index)]
+			for k, vr := range t.params {
+				e.padj[vr.index] = e.d[int(t.adj0)+len(t.vars)+k]
 			}
 			var bad int32 = -1
 			for k, c := range cols {
@@ -222,7 +221,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code []instr, cols []i
 				e.padj[vr.index] = 0
 			}
 			if bad >= 0 {
-				return e.derivFault(t, e.prog.pNames[bad])
+				return e.derivFault(tapes, rev, t, e.prog.pNames[bad])
 			}
 		}
 	}

@@ -1,6 +1,10 @@
 package jacobian
 
-import "math"
+import (
+	"cmp"
+	"math"
+	"slices"
+)
 
 // constPool numbers the distinct constants of a program (by bits, so 0 and
 // -0 stay apart) in order of first use.
@@ -42,15 +46,33 @@ type lowering struct {
 	base   int32           // index in w of temporary 0: nx + np + constants
 	code   []instr         // the forward program
 	cse    map[instr]int32 // instruction -> index in w of its value
+	dnext  int32           // start of the next tape's region of d
+	tapes  []*tape         // the tapes lowered, in order
+	sweeps []sweep         // reverse sweep of each tape, in order
 }
+
+// sweep is the reverse sweep of one tape, before batching.
+type sweep struct {
+	code  []opcode
+	lanes []rlane
+	deps  []uint8 // for each step, whether its result depends on x (depX), on p (depP)
+}
+
+// Dependence of a value on the unknowns and on the parameters.
+const (
+	depX uint8 = 1 << iota
+	depP
+	depAll = depX | depP
+)
 
 func newLowering(nx, np int, pool *constPool) *lowering {
 	return &lowering{
-		nx:   int32(nx),
-		np:   int32(np),
-		pool: pool,
-		base: int32(nx + np + len(pool.vals)),
-		cse:  map[instr]int32{},
+		nx:    int32(nx),
+		np:    int32(np),
+		pool:  pool,
+		base:  int32(nx + np + len(pool.vals)),
+		cse:   map[instr]int32{},
+		dnext: dSink + 1,
 	}
 }
 
@@ -93,72 +115,229 @@ func (l *lowering) tape(t *tape) {
 		t.slot[k] = i
 	}
 	t.out = t.slot[t.root]
+	l.tapes = append(l.tapes, t)
 	l.reverse(t)
 }
 
-// reverse builds the reverse sweep of t: one step per arithmetic op from
-// the root down, as the source form's sweep visits them.
+// reverse builds the reverse sweep of t, one step per arithmetic op from
+// the root down as the source form's sweep visits them, and gives t its
+// region of d.
 func (l *lowering) reverse(t *tape) {
-	zero := l.nx + l.np
-	sink := zero + 1
-	t.dbase = zero + 2
 	n := int(t.root) + 1
+	t.adj0 = l.dnext
+	t.zero = t.zero[:0]
 	t.aslot = make([]int32, n)
-	t.rev = t.rev[:0]
-	for k := n - 1; k >= 0; k-- {
-		switch o := t.ops[k]; o.code {
-		case opVar:
-			t.aslot[k] = o.a
-		case opParam:
-			t.aslot[k] = l.nx + o.a
-		case opConst:
-			t.aslot[k] = sink
-		default:
-			t.aslot[k] = t.dbase + int32(len(t.rev))
-			t.rev = append(t.rev, rinstr{code: o.code})
+	for k := range t.aslot {
+		t.aslot[k] = -1
+	}
+	next := t.adj0
+	for _, refs := range [][]varRef{t.vars, t.params} {
+		for _, vr := range refs {
+			if int(vr.slot) < n {
+				t.aslot[vr.slot] = next
+			} else {
+				t.zero = append(t.zero, next) // loaded after the result: derivative 0
+			}
+			next++
 		}
 	}
+	var sw sweep
+	for k := n - 1; k >= 0; k-- {
+		switch o := t.ops[k]; o.code {
+		case opVar, opParam:
+		case opConst:
+			t.aslot[k] = dSink
+		default:
+			t.aslot[k] = next
+			next++
+			sw.code = append(sw.code, o.code)
+		}
+	}
+	l.dnext = next
 	t.rootAdj = t.aslot[t.root]
 
 	// Operands: the first step to reach one (in sweep order) adds to zero.
 	reached := make([]bool, n)
+	dep := make([]uint8, n)
+	for k := range n {
+		switch o := t.ops[k]; o.code {
+		case opVar:
+			dep[k] = depX
+		case opParam:
+			dep[k] = depP
+		case opConst:
+		default:
+			dep[k] = dep[o.a]
+			if o.code.binary() {
+				dep[k] |= dep[o.b]
+			}
+		}
+	}
 	target := func(s int32) (ta, sa int32) {
 		switch {
 		case t.ops[s].code == opConst:
-			return sink, zero
+			return dSink, dZero
 		case !reached[s]:
 			reached[s] = true
-			return t.aslot[s], zero
+			return t.aslot[s], dZero
 		}
 		return t.aslot[s], t.aslot[s]
 	}
-	j := 0
 	for k := n - 1; k >= 0; k-- {
 		o := t.ops[k]
 		switch o.code {
 		case opVar, opParam, opConst:
 			continue
 		}
-		r := &t.rev[j]
-		j++
-		r.va, r.vk = t.slot[o.a], t.slot[k]
+		r := rlane{va: t.slot[o.a], vk: t.slot[k], tk: t.aslot[k]}
 		r.ta, r.sa = target(o.a)
 		switch {
 		case o.code == opPowC:
 			r.vb = l.constant(o.c)
-			r.tb, r.sb = sink, zero
+			r.tb, r.sb = dSink, dZero
 		case o.code.binary():
 			r.vb = t.slot[o.b]
 			r.tb, r.sb = target(o.b)
 		default:
 			r.vb = r.va
-			r.tb, r.sb = sink, zero
+			r.tb, r.sb = dSink, dZero
 		}
+		sw.lanes = append(sw.lanes, r)
+		sw.deps = append(sw.deps, dep[k])
 	}
-	t.zero = t.zero[:0]
 	for k := range n - 1 {
 		if c := t.ops[k].code; c != opConst && !reached[k] {
 			t.zero = append(t.zero, t.aslot[k]) // loaded (or computed) but not used
 		}
 	}
+	l.sweeps = append(l.sweeps, sw)
+}
+
+// batches gathers the sweeps of the tapes lowered so far into batches, one
+// per distinct sequence of ops, in order of first appearance, keeping only
+// the steps whose result depends on what need asks for. A step whose result
+// does not depend on x only passes derivatives on to parameters and
+// constants, so dropping it changes no derivative with respect to x (and
+// the other way round): every step reaching an x-dependent adjoint is kept,
+// the first to reach it included.
+func (l *lowering) batches(need uint8) []batch {
+	sweeps := l.sweeps
+	if need != depAll {
+		sweeps = make([]sweep, len(l.sweeps))
+		for i, sw := range l.sweeps {
+			for s, dep := range sw.deps {
+				if dep&need != 0 {
+					sweeps[i].code = append(sweeps[i].code, sw.code[s])
+					sweeps[i].lanes = append(sweeps[i].lanes, sw.lanes[s])
+				}
+			}
+		}
+	}
+	var out []batch
+	var members [][]int
+	index := map[string]int{}
+	for i, sw := range sweeps {
+		if len(sw.code) == 0 {
+			continue
+		}
+		key := string(sw.code)
+		b, ok := index[key]
+		if !ok {
+			b = len(out)
+			index[key] = b
+			out = append(out, batch{code: sw.code})
+			members = append(members, nil)
+		}
+		members[b] = append(members[b], i)
+	}
+	for b := range out {
+		bt := &out[b]
+		bt.k = len(members[b])
+		bt.lanes = make([]rlane, len(bt.code)*bt.k)
+		for lane, i := range members[b] {
+			for s, r := range sweeps[i].lanes {
+				bt.lanes[s*bt.k+lane] = r
+				for _, v := range []int32{r.va, r.vb, r.vk} {
+					if v < 0 {
+						panic("jacobian: negative value index")
+					}
+					bt.wlen = max(bt.wlen, int(v)+1)
+				}
+				for _, a := range []int32{r.tk, r.ta, r.tb, r.sa, r.sb} {
+					if a < 0 {
+						panic("jacobian: negative adjoint index")
+					}
+					bt.dlen = max(bt.dlen, int(a)+1)
+				}
+			}
+		}
+	}
+	return out
+}
+
+// schedule orders the forward program by level (an instruction's level is
+// one more than its operands' highest) and, within a level, by op, then
+// renumbers the temporaries everywhere they are referred to: the tapes'
+// value slots and the reverse steps. The values are unchanged (each is the
+// same operation on the same operands); only the order in which independent
+// instructions run changes. It returns the program with its runs.
+func (l *lowering) schedule() *fwdProgram {
+	n := len(l.code)
+	level := make([]int32, n)
+	for k, o := range l.code {
+		for _, a := range []int32{o.a, o.b} {
+			if a >= l.base {
+				level[k] = max(level[k], level[a-l.base]+1)
+			}
+		}
+	}
+	order := make([]int, n)
+	for k := range order {
+		order[k] = k
+	}
+	slices.SortStableFunc(order, func(i, j int) int {
+		if c := cmp.Compare(level[i], level[j]); c != 0 {
+			return c
+		}
+		return cmp.Compare(l.code[i].code, l.code[j].code)
+	})
+	newIdx := make([]int32, n)
+	for k, old := range order {
+		newIdx[old] = int32(k)
+	}
+	re := func(i int32) int32 {
+		if i >= l.base {
+			return l.base + newIdx[i-l.base]
+		}
+		return i
+	}
+	f := &fwdProgram{code: make([]instr, n)}
+	for k, old := range order {
+		o := l.code[old]
+		o.a, o.b = re(o.a), re(o.b)
+		if o.a < 0 || o.b < 0 || o.a >= l.base+int32(k) || o.b >= l.base+int32(k) {
+			panic("jacobian: forward instruction reads a value not computed before it")
+		}
+		f.code[k] = o
+		if len(f.runs) > 0 && f.runs[len(f.runs)-1].code == o.code {
+			f.runs[len(f.runs)-1].n++
+		} else {
+			f.runs = append(f.runs, run{code: o.code, n: 1})
+		}
+	}
+	l.code = f.code
+	for _, t := range l.tapes {
+		for k, s := range t.slot {
+			t.slot[k] = re(s)
+		}
+		t.out = re(t.out)
+	}
+	for _, sw := range l.sweeps {
+		for i := range sw.lanes {
+			r := &sw.lanes[i]
+			r.va, r.vb, r.vk = re(r.va), re(r.vb), re(r.vk)
+		}
+	}
+	clear(l.cse) // indices are stale now; no tape may be added after schedule
+	return f
 }

@@ -3,6 +3,7 @@ package jacobian
 import (
 	"fmt"
 	"math"
+	"unsafe"
 
 	"github.com/loopwright/loopwright/model"
 )
@@ -63,25 +64,49 @@ type instr struct {
 	a, b int32
 }
 
-// rinstr is one step of the reverse sweep of a tape: the adjoint of one
-// arithmetic op of the source form, in the order the source form's sweep
-// visits them (result to operands). Values come from w; adjoints live in a
+// rlane is one step of the reverse sweep of one tape: the adjoint of one
+// arithmetic op of its source form. Values come from w; adjoints live in a
 // second array d, laid out as
 //
-//	d = [ x (nx) | p (np) | zero | sink | the tape's temporaries ]
+//	d = [ zero | sink | one region per tape of the group ]
 //
 // where zero always holds 0 and sink receives the adjoints of constants,
-// which nobody reads. The adjoint of the op's own result is temporary j of d
-// for step j. An operand's contribution is added to d[sa] and stored in
-// d[ta]: sa is ta itself, or the zero slot where the step is the first (in
-// sweep order) to reach the operand, so a tape's adjoints need no clearing
-// and the sums are those of a cleared array, term by term.
-type rinstr struct {
-	code       opcode
+// which nobody reads. A tape's region holds the adjoints of the unknowns it
+// loads (in the order of tape.vars), of its parameters (tape.params) and of
+// its temporaries, so the sweeps of different tapes never touch the same
+// number and may run in any order, interleaved.
+//
+// The step reads its own adjoint g = d[tk]. An operand's contribution is
+// added to d[sa] and stored in d[ta]: sa is ta itself, or the zero slot where
+// the step is the first (in the source form's sweep order) to reach the
+// operand, so no adjoint needs clearing and every sum is that of a cleared
+// array, term by term.
+type rlane struct {
 	va, vb, vk int32 // indices in w of the operands and of the result
+	tk         int32 // index in d of the result's adjoint
 	ta, tb     int32 // adjoints of the operands (for unary ops tb is the sink)
 	sa, sb     int32 // adjoints the contributions are added to: ta/tb or the zero slot
 }
+
+// batch is the reverse sweep of several tapes whose source forms have the
+// same sequence of arithmetic ops: step s is code[s] on each lane, the lanes
+// of step s being lanes[s*k : (s+1)*k]. One dispatch serves k tapes, and
+// their independent chains of adjoints overlap in the processor.
+type batch struct {
+	code  []opcode
+	k     int
+	lanes []rlane
+	// Every index of a lane is in [0, dlen) for d or [0, wlen) for w, as
+	// checked when the batch was built; reverse checks len(d) and len(w)
+	// against them once and indexes without further checks.
+	dlen, wlen int
+}
+
+// Positions of the zero and sink slots in d.
+const (
+	dZero = 0
+	dSink = 1
+)
 
 // varRef ties a load instruction to the symbol it loads.
 type varRef struct {
@@ -113,139 +138,244 @@ type tape struct {
 	vars   []varRef // unknowns loaded, sorted by index: the row's pattern
 	params []varRef // parameters loaded, sorted by index
 
-	out     int32    // index in w of the result
-	rev     []rinstr // reverse sweep
-	dbase   int32    // index in d of the adjoint of rev[0]'s result
-	rootAdj int32    // index in d of the result's adjoint
-	zero    []int32  // adjoints in d to clear before the sweep: leaves no step reaches
-	slot    []int32  // index in w of the value of each source op
-	aslot   []int32  // index in d of the adjoint of each source op up to root
+	out     int32   // index in w of the result
+	adj0    int32   // start of the tape's region of d: unknowns, then parameters
+	rootAdj int32   // index in d of the result's adjoint
+	zero    []int32 // adjoints in d to clear before the sweep: those no step reaches
+	slot    []int32 // index in w of the value of each source op
+	aslot   []int32 // index in d of the adjoint of each source op up to root
 }
 
-// forward runs a forward program on the value space w (x, p and the
-// constants in place), filling the temporaries from w[base].
-func forward(code []instr, w []float64, base int) {
-	tmp := w[base : base+len(code)]
-	for k, o := range code {
-		switch o.code {
+// fwdProgram is the forward program of a group: its instructions in an
+// order where each comes after its operands, sorted so that instructions of
+// the same op stand together in runs (one dispatch per run), and every
+// instruction of a run is independent of the others in it.
+type fwdProgram struct {
+	code []instr
+	runs []run
+}
+
+// run is a stretch of n consecutive instructions with the same op.
+type run struct {
+	code opcode
+	n    int32
+}
+
+// forward runs f on the value space w (x, p and the constants in place),
+// filling the temporaries from w[base]. Operands of instruction k are below
+// base+k (checked when f was built), so once w is known to be long enough
+// they are read without further checks.
+func forward(f *fwdProgram, w []float64, base int) {
+	tmp := w[base : base+len(f.code)]
+	wp := unsafe.Pointer(unsafe.SliceData(w))
+	k := 0
+	for _, r := range f.runs {
+		code := f.code[k : k+int(r.n)]
+		out := tmp[k : k+int(r.n)]
+		k += int(r.n)
+		switch r.code {
 		case opAdd:
-			tmp[k] = w[o.a] + w[o.b]
+			for i, o := range code {
+				out[i] = *at(wp, o.a) + *at(wp, o.b)
+			}
 		case opSub:
-			tmp[k] = w[o.a] - w[o.b]
+			for i, o := range code {
+				out[i] = *at(wp, o.a) - *at(wp, o.b)
+			}
 		case opMul:
-			tmp[k] = w[o.a] * w[o.b]
+			for i, o := range code {
+				out[i] = *at(wp, o.a) * *at(wp, o.b)
+			}
 		case opDiv:
-			tmp[k] = w[o.a] / w[o.b]
-		case opNeg:
-			tmp[k] = -w[o.a]
-		case opSq:
-			a := w[o.a]
-			tmp[k] = a * a
-		case opPowC, opPow:
-			tmp[k] = math.Pow(w[o.a], w[o.b])
-		case opExp:
-			tmp[k] = math.Exp(w[o.a])
-		case opLog:
-			tmp[k] = math.Log(w[o.a])
-		case opLog10:
-			tmp[k] = math.Log10(w[o.a])
-		case opSqrt:
-			tmp[k] = math.Sqrt(w[o.a])
-		case opAbs:
-			tmp[k] = math.Abs(w[o.a])
-		case opMin:
-			a, b := w[o.a], w[o.b]
-			if b < a || b != b {
-				a = b
+			for i, o := range code {
+				out[i] = *at(wp, o.a) / *at(wp, o.b)
 			}
-			tmp[k] = a
-		case opMax:
-			a, b := w[o.a], w[o.b]
-			if b > a || b != b {
-				a = b
-			}
-			tmp[k] = a
 		default:
-			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
+			for i, o := range code {
+				out[i] = forwardOther(o, wp)
+			}
 		}
 	}
 }
 
-// reverse runs the adjoint sweep of t after the forward program of its
-// group: d receives the derivative of the result with respect to every
-// temporary and every unknown and parameter t loads; w holds the values.
-// Each adjoint is accumulated term by term in the order of the source
-// form's sweep, operand a before operand b, starting from 0, and a step
-// whose own adjoint is 0 is skipped, so every derivative is the same number
-// the source form gives. Adjoints of symbols t does not load are left alone.
-func (t *tape) reverse(d, w []float64) {
-	for _, z := range t.zero {
-		d[z] = 0
+// forwardOther is the value of an instruction of a less common op.
+func forwardOther(o instr, w unsafe.Pointer) float64 {
+	a, b := *at(w, o.a), *at(w, o.b)
+	switch o.code {
+	case opNeg:
+		return -a
+	case opSq:
+		return a * a
+	case opPowC, opPow:
+		return math.Pow(a, b)
+	case opExp:
+		return math.Exp(a)
+	case opLog:
+		return math.Log(a)
+	case opLog10:
+		return math.Log10(a)
+	case opSqrt:
+		return math.Sqrt(a)
+	case opAbs:
+		return math.Abs(a)
+	case opMin:
+		if b < a || b != b {
+			a = b
+		}
+		return a
+	case opMax:
+		if b > a || b != b {
+			a = b
+		}
+		return a
 	}
-	d[t.rootAdj] = 1
-	dt := d[t.dbase : int(t.dbase)+len(t.rev)]
-	for j := range t.rev {
-		o := &t.rev[j]
-		g := dt[j]
-		if g == 0 {
-			// Skipped: an operand reached first here starts from 0.
-			d[o.ta] = d[o.sa]
-			d[o.tb] = d[o.sb]
-			continue
+	panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
+}
+
+// reverse runs the adjoint sweeps of tapes, whose steps are batches, after
+// the forward program of their group: d receives the derivative of each
+// tape's result with respect to its temporaries, unknowns and parameters,
+// in the tape's region; w holds the values. Each adjoint is accumulated term
+// by term in the order of the source form's sweep, operand a before operand
+// b, starting from 0, and a step whose own adjoint is 0 is skipped, so every
+// derivative is the same number the source form gives.
+func reverse(tapes []*tape, batches []batch, d, w []float64) {
+	for _, t := range tapes {
+		for _, z := range t.zero {
+			d[z] = 0
 		}
-		switch o.code {
-		case opAdd:
-			d[o.ta] = d[o.sa] + g
-			d[o.tb] = d[o.sb] + g
-		case opSub:
-			d[o.ta] = d[o.sa] + g
-			d[o.tb] = d[o.sb] - g
-		case opMul:
-			d[o.ta] = d[o.sa] + g*w[o.vb]
-			d[o.tb] = d[o.sb] + g*w[o.va]
-		case opNeg:
-			d[o.ta] = d[o.sa] - g
-		case opDiv:
-			q := g / w[o.vb]
-			d[o.ta] = d[o.sa] + q
-			d[o.tb] = d[o.sb] - q*w[o.vk]
-		case opSq:
-			d[o.ta] = d[o.sa] + g*(2*w[o.va])
-		case opPowC:
-			d[o.ta] = d[o.sa] + g*powPartial(w[o.va], w[o.vb], w[o.vk])
-		case opPow:
-			a, b, r := w[o.va], w[o.vb], w[o.vk]
-			da := powPartial(a, b, r)
-			var db float64
-			if r != 0 {
-				db = r * math.Log(a) // NaN for a < 0: no real derivative
-			}
-			d[o.ta] = d[o.sa] + g*da
-			d[o.tb] = d[o.sb] + g*db
-		case opExp:
-			d[o.ta] = d[o.sa] + g*w[o.vk]
-		case opLog:
-			d[o.ta] = d[o.sa] + g*(1/w[o.va])
-		case opLog10:
-			d[o.ta] = d[o.sa] + g*(1/(w[o.va]*math.Ln10))
-		case opSqrt:
-			d[o.ta] = d[o.sa] + g*(0.5/w[o.vk])
-		case opAbs:
-			da := 1.0
-			if w[o.va] < 0 {
-				da = -1
-			}
-			d[o.ta] = d[o.sa] + g*da
-		case opMin, opMax:
-			da, db := 1.0, 0.0
-			if o.code == opMin && w[o.vb] < w[o.va] || o.code == opMax && w[o.vb] > w[o.va] {
-				da, db = 0, 1
-			}
-			d[o.ta] = d[o.sa] + g*da
-			d[o.tb] = d[o.sb] + g*db
-		default:
-			panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
+		d[t.rootAdj] = 1
+	}
+	for b := range batches {
+		bt := &batches[b]
+		if len(d) < bt.dlen || len(w) < bt.wlen {
+			panic("jacobian: work buffers too short for the program")
 		}
+		dp, wp := unsafe.Pointer(unsafe.SliceData(d)), unsafe.Pointer(unsafe.SliceData(w))
+		for s, code := range bt.code {
+			reverseStep(code, bt.lanes[s*bt.k:(s+1)*bt.k], dp, wp)
+		}
+	}
+}
+
+// at returns the element i of the float64 array at p. Callers have checked
+// that i is in range.
+func at(p unsafe.Pointer, i int32) *float64 {
+	return (*float64)(unsafe.Add(p, uintptr(uint32(i))*8))
+}
+
+// reverseStep runs one step of the reverse sweep, an op of the given code,
+// on each lane. d and w point to the adjoints and the values.
+func reverseStep(code opcode, lanes []rlane, d, w unsafe.Pointer) {
+	switch code {
+	case opAdd:
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) + g
+				*at(d, o.tb) = *at(d, o.sb) + g
+			} else {
+				skip(o, d)
+			}
+		}
+	case opSub:
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) + g
+				*at(d, o.tb) = *at(d, o.sb) - g
+			} else {
+				skip(o, d)
+			}
+		}
+	case opMul:
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vb)
+				*at(d, o.tb) = *at(d, o.sb) + g**at(w, o.va)
+			} else {
+				skip(o, d)
+			}
+		}
+	case opDiv:
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				q := g / *at(w, o.vb)
+				*at(d, o.ta) = *at(d, o.sa) + q
+				*at(d, o.tb) = *at(d, o.sb) - q**at(w, o.vk)
+			} else {
+				skip(o, d)
+			}
+		}
+	case opNeg:
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) - g
+			} else {
+				skip(o, d)
+			}
+		}
+	default:
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				reverseOther(code, o, g, d, w)
+			} else {
+				skip(o, d)
+			}
+		}
+	}
+}
+
+// skip passes over a step whose adjoint is 0: an operand reached first here
+// starts from 0.
+func skip(o *rlane, d unsafe.Pointer) {
+	*at(d, o.ta) = *at(d, o.sa)
+	*at(d, o.tb) = *at(d, o.sb)
+}
+
+// reverseOther is the step of the less common ops, with adjoint g != 0.
+func reverseOther(code opcode, o *rlane, g float64, d, w unsafe.Pointer) {
+	switch code {
+	case opSq:
+		*at(d, o.ta) = *at(d, o.sa) + g*(2**at(w, o.va))
+	case opPowC:
+		*at(d, o.ta) = *at(d, o.sa) + g*powPartial(*at(w, o.va), *at(w, o.vb), *at(w, o.vk))
+	case opPow:
+		a, b, r := *at(w, o.va), *at(w, o.vb), *at(w, o.vk)
+		da := powPartial(a, b, r)
+		var db float64
+		if r != 0 {
+			db = r * math.Log(a) // NaN for a < 0: no real derivative
+		}
+		*at(d, o.ta) = *at(d, o.sa) + g*da
+		*at(d, o.tb) = *at(d, o.sb) + g*db
+	case opExp:
+		*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vk)
+	case opLog:
+		*at(d, o.ta) = *at(d, o.sa) + g*(1 / *at(w, o.va))
+	case opLog10:
+		*at(d, o.ta) = *at(d, o.sa) + g*(1/(*at(w, o.va)*math.Ln10))
+	case opSqrt:
+		*at(d, o.ta) = *at(d, o.sa) + g*(0.5 / *at(w, o.vk))
+	case opAbs:
+		da := 1.0
+		if *at(w, o.va) < 0 {
+			da = -1
+		}
+		*at(d, o.ta) = *at(d, o.sa) + g*da
+	case opMin, opMax:
+		da, db := 1.0, 0.0
+		if code == opMin && *at(w, o.vb) < *at(w, o.va) || code == opMax && *at(w, o.vb) > *at(w, o.va) {
+			da, db = 0, 1
+		}
+		*at(d, o.ta) = *at(d, o.sa) + g*da
+		*at(d, o.tb) = *at(d, o.sb) + g*db
+	default:
+		panic(fmt.Sprintf("jacobian: unknown opcode %d", code))
 	}
 }
 
