@@ -125,7 +125,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 			Name: PairingName(m.outputs, m.inputs, p), Role: role, Input: append([]int(nil), p...)})
 	}
 	if best := bestOf(a); best != nil {
-		add(best.Pairs, "nominal best")
+		add(slices.Clone(best.Pairs), "nominal best")
 	}
 	for _, p := range opts.Pairings {
 		if len(p) != no {
@@ -229,6 +229,7 @@ type modelWorker struct {
 	y     []float64
 	gs    interact.GainSet
 	aopts interact.Options
+	az    *interact.Analyzer // its results last until the next point
 }
 
 func (m *modelRun) newWorker() *modelWorker {
@@ -256,6 +257,7 @@ func (m *modelRun) newWorker() *modelWorker {
 	w.aopts.MaxPairings = -1
 	// The records keep numbers and verdicts only: skip the words.
 	w.aopts.Brief = true
+	w.az = interact.NewAnalyzer(&w.aopts)
 	w.gs = interact.GainSet{Outputs: m.signalsO, Inputs: m.signalsI, Source: "model"}
 	return w
 }
@@ -543,7 +545,7 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	}
 	gs := w.gs
 	gs.K = k
-	a, err := interact.Analyze(&gs, &w.aopts)
+	a, err := w.az.Analyze(&gs)
 	if err != nil {
 		return nil, k, err
 	}
