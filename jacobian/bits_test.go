@@ -347,8 +347,22 @@ func compareBits(t *testing.T, prog *Program, e *Eval, ref *refEval, x, p []floa
 	}
 	if neq > 0 && len(cols) > 0 {
 		dp, wdp := nanDense(neq, len(cols)), nanDense(neq, len(cols))
-		check("ParamJacobian", e.ParamJacobian(dp, x, p, cols), ref.gradRows(nil, wdp, prog.eqs, x, p, cols),
-			dp.RawMatrix().Data, wdp.RawMatrix().Data)
+		werr := ref.gradRows(nil, wdp, prog.eqs, x, p, cols)
+		check("ParamJacobian", e.ParamJacobian(dp, x, p, cols), werr, dp.RawMatrix().Data, wdp.RawMatrix().Data)
+		// The combined evaluation: residual and Jacobian as ResidualJacobian
+		// (errors included), the parameter columns as ParamJacobian's
+		// whenever the Jacobian evaluates.
+		f, wf := nanSlice(neq), nanSlice(neq)
+		jac, wjac := prog.NewJacobian(), prog.NewJacobian()
+		copy(jac.Val, nanSlice(len(jac.Val)))
+		copy(wjac.Val, jac.Val)
+		dp2 := nanDense(neq, len(cols))
+		err, werrJ := e.ResidualJacobianParams(f, jac, dp2, x, p, cols), ref.residualJacobian(wf, wjac, x, p)
+		check("ResidualJacobianParams f", err, werrJ, f, wf)
+		check("ResidualJacobianParams J", err, werrJ, jac.Val, wjac.Val)
+		if err == nil && werr == nil {
+			check("ResidualJacobianParams dp", nil, nil, dp2.RawMatrix().Data, wdp.RawMatrix().Data)
+		}
 	}
 	if nout > 0 && prog.NumUnknowns() > 0 {
 		dx, wdx := nanDense(nout, prog.NumUnknowns()), nanDense(nout, prog.NumUnknowns())
