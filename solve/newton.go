@@ -186,16 +186,18 @@ type Solver struct {
 	// solves and not only on each call. Forget begins a new sequence.
 	KeepPivots bool
 
-	prob   *Problem
-	st     *structure.Structure
-	full   *part
-	blocks []*part // by block, made when first needed
-	work   *solver
+	prob    *Problem
+	st      *structure.Structure
+	full    *part
+	blocks  []*part // by block, made when first needed
+	work    *solver
+	pending *Pivots // for parts made after UsePivots
 }
 
 // Forget drops the factorisations kept for KeepPivots: the next Solve
 // chooses its pivots afresh, as a new Solver would.
 func (sv *Solver) Forget() {
+	sv.pending = nil
 	if sv.full != nil {
 		sv.full.lu = nil
 	}
@@ -204,6 +206,79 @@ func (sv *Solver) Forget() {
 			pt.lu = nil
 		}
 	}
+}
+
+// Pivots are the factorisations a Solver keeps between solves for
+// KeepPivots, to start Solvers of the same Problem from: the workers of a
+// sweep start every chain from the pivots of the nominal solve, so that no
+// chain needs a fresh symbolic analysis and every chain starts alike. A
+// Pivots is only read once made, by any number of Solvers at once.
+type Pivots struct {
+	full   *sparse.LU
+	blocks []*sparse.LU // by block; nil where there is none
+}
+
+// Pivots returns a copy of the factorisations the Solver keeps now.
+func (sv *Solver) Pivots() *Pivots {
+	clone := func(f *sparse.LU) *sparse.LU {
+		if f == nil {
+			return nil
+		}
+		c := new(sparse.LU)
+		c.CopyFrom(f)
+		return c
+	}
+	p := &Pivots{blocks: make([]*sparse.LU, len(sv.blocks))}
+	if sv.full != nil {
+		p.full = clone(sv.full.lu)
+	}
+	for b, pt := range sv.blocks {
+		if pt != nil {
+			p.blocks[b] = clone(pt.lu)
+		}
+	}
+	return p
+}
+
+// UsePivots makes the Solver keep copies of p's factorisations in place of
+// its own: with KeepPivots, the next Solve starts from p's pivots. A nil p
+// is Forget.
+func (sv *Solver) UsePivots(p *Pivots) {
+	sv.Forget()
+	if p == nil {
+		return
+	}
+	sv.pending = p
+	if sv.full != nil {
+		sv.seed(sv.full)
+	}
+	for _, pt := range sv.blocks {
+		if pt != nil {
+			sv.seed(pt)
+		}
+	}
+}
+
+// seed copies the pending pivots of pt's part into it.
+func (sv *Solver) seed(pt *part) {
+	if sv.pending == nil {
+		return
+	}
+	src := sv.pending.full
+	if pt.block >= 0 {
+		src = nil
+		if pt.block < len(sv.pending.blocks) {
+			src = sv.pending.blocks[pt.block]
+		}
+	}
+	if src == nil {
+		pt.lu = nil
+		return
+	}
+	if pt.lu == nil {
+		pt.lu = new(sparse.LU)
+	}
+	pt.lu.CopyFrom(src)
 }
 
 // NewSolver returns a Solver for prob. The Problem's pattern (N, RowPtr,
@@ -296,6 +371,7 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 
 	if sv.full == nil {
 		sv.full = s.newPart(-1, seq(n), seq(n))
+		sv.seed(sv.full)
 	}
 	full := sv.full
 	var reasons []string
@@ -319,6 +395,7 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 		for b, blk := range st.Blocks {
 			if sv.blocks[b] == nil {
 				sv.blocks[b] = s.newPart(b, blk.Equations, blk.Unknowns)
+				sv.seed(sv.blocks[b])
 			}
 			out = s.run(sv.blocks[b], y, s.opt.FTol)
 			if !out.ok() {

@@ -404,3 +404,50 @@ func BenchmarkNewtonColumn200x4(b *testing.B) {
 		}
 	}
 }
+
+// TestUsePivots: with KeepPivots, a Solver started from another's Pivots
+// solves to the same bits as that Solver continuing, and after Forget it
+// solves as a new Solver does (a fresh factorisation at its first
+// iteration).
+func TestUsePivots(t *testing.T) {
+	p := columnA.problem()
+	ctx := context.Background()
+	first := NewSolver(p)
+	first.KeepPivots = true
+	if _, err := first.Solve(ctx, constant(41, 0.5), nil); err != nil {
+		t.Fatal(err)
+	}
+	piv := first.Pivots()
+	if piv.full == nil {
+		t.Fatal("the solver kept no factorisation of the whole system")
+	}
+	x0 := constant(41, 0.4)
+	want, err := first.Solve(ctx, x0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	second := NewSolver(p)
+	second.KeepPivots = true
+	second.UsePivots(piv)
+	got, err := second.Solve(ctx, x0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i := range want.X {
+		if math.Float64bits(got.X[i]) != math.Float64bits(want.X[i]) {
+			t.Fatalf("x[%d]: from the kept pivots %v, continuing %v", i, got.X[i], want.X[i])
+		}
+	}
+	second.Forget()
+	again, err := second.Solve(ctx, x0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fresh, err := Newton(ctx, p, x0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(again.X, fresh.X) {
+		t.Error("after Forget the solve differs from a new solver's")
+	}
+}

@@ -110,6 +110,11 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
 	startTangent := w.tangent(nominal, State{})
+	m.pivots = w.sol.Pivots()
+	if w.lu != nil {
+		m.gainsLU = new(sparse.LU)
+		m.gainsLU.CopyFrom(w.lu)
+	}
 
 	h := &Header{Format: FormatVersion, Model: sys.Name, Axes: axes, Design: opts.Design, Total: plan.Len(),
 		Outputs: m.outputs, Inputs: m.inputs, Caution: interact.Caution}
@@ -176,8 +181,10 @@ type modelRun struct {
 	names    []string
 	eqNames  []string
 
-	pairNames []string // names of the pairings of interest
-	axes      []int    // parameter slot of each sweep axis
+	pairNames []string      // names of the pairings of interest
+	pivots    *solve.Pivots // of the nominal solve, where every chain starts
+	gainsLU   *sparse.LU    // the factorisation of the Jacobian at the nominal point
+	axes      []int         // parameter slot of each sweep axis
 	axisSpan  []float64
 	pcols     []int // the inputs, then the axes: columns of dF/dp at each point
 }
@@ -280,9 +287,17 @@ func (m *modelRun) newWorker() *modelWorker {
 func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
 	w.p, w.fpOK = p, false
 	if from.Nominal {
-		// A new chain: keep nothing from other chains' points.
-		w.lu = nil
-		w.sol.Forget()
+		// A new chain: keep nothing from other chains' points; start from
+		// the nominal point's pivots, as every chain does.
+		w.sol.UsePivots(w.m.pivots)
+		if w.m.gainsLU == nil {
+			w.lu = nil
+		} else {
+			if w.lu == nil {
+				w.lu = new(sparse.LU)
+			}
+			w.lu.CopyFrom(w.m.gainsLU)
+		}
 	}
 	opts := w.m.opts.Solver
 	var res *solve.Result

@@ -99,6 +99,40 @@ func (f *LU) Refactor(a *CSR) error {
 	return f.factor()
 }
 
+// CopyFrom makes f a copy of src (pattern, column order, pivots and
+// factors), reusing f's storage: the next Refactor of f then starts from
+// src's pivots. A nil src leaves f empty, to be analysed afresh by its
+// next Refactor.
+func (f *LU) CopyFrom(src *LU) {
+	if src == nil {
+		*f = LU{}
+		return
+	}
+	cpInts := func(dst, s []int) []int {
+		if s == nil {
+			return nil
+		}
+		return append(dst[:0], s...)
+	}
+	cpFloats := func(dst, s []float64) []float64 {
+		if s == nil {
+			return nil
+		}
+		return append(dst[:0], s...)
+	}
+	f.n, f.tau, f.how = src.n, src.tau, src.how
+	f.rowPtr, f.colIdx = cpInts(f.rowPtr, src.rowPtr), cpInts(f.colIdx, src.colIdx)
+	f.cp, f.ri, f.csrPos = cpInts(f.cp, src.cp), cpInts(f.ri, src.ri), cpInts(f.csrPos, src.csrPos)
+	f.cval = cpFloats(f.cval, src.cval)
+	f.q, f.pref = cpInts(f.q, src.q), cpInts(f.pref, src.pref)
+	f.pinv, f.p = cpInts(f.pinv, src.pinv), cpInts(f.p, src.p)
+	f.lp, f.li, f.lx = cpInts(f.lp, src.lp), cpInts(f.li, src.li), cpFloats(f.lx, src.lx)
+	f.up, f.ui, f.ux = cpInts(f.up, src.up), cpInts(f.ui, src.ui), cpFloats(f.ux, src.ux)
+	f.udiag = cpFloats(f.udiag, src.udiag)
+	f.anorm = src.anorm
+	f.refactored, f.fresh = 0, 0
+}
+
 // Stats reports the number of entries in L and U (diagonal included in U),
 // and how many factorisations chose new pivots (fresh) or kept the previous
 // ones (kept).
@@ -300,10 +334,13 @@ func (f *LU) refactor() error {
 		f.work = make([]float64, n)
 	}
 	x := f.work
+	// One pass of column k; the index slices are resliced to their exact
+	// lengths so that the compiler drops most bounds checks.
+	ui, li, ux, lx := f.ui, f.li, f.ux, f.lx
 	for k := range n {
 		col := f.q[k]
-		uRows := f.ui[f.up[k]:f.up[k+1]]
-		lRows := f.li[f.lp[k]:f.lp[k+1]]
+		u0, u1, l0, l1 := f.up[k], f.up[k+1], f.lp[k], f.lp[k+1]
+		uRows, lRows := ui[u0:u1], li[l0:l1]
 		for _, j := range uRows {
 			x[j] = 0
 		}
@@ -312,32 +349,47 @@ func (f *LU) refactor() error {
 		}
 		x[k] = 0
 		scale := 0.0
-		for pc := f.cp[col]; pc < f.cp[col+1]; pc++ {
-			x[f.pinv[f.ri[pc]]] = f.cval[pc]
-			scale = max(scale, math.Abs(f.cval[pc]))
+		rows, vals := f.ri[f.cp[col]:f.cp[col+1]], f.cval[f.cp[col]:f.cp[col+1]]
+		for t, r := range rows {
+			v := vals[t]
+			x[f.pinv[r]] = v
+			scale = maxAbs(scale, v)
 		}
+		uk := ux[u0:u1]
 		for t, j := range uRows {
 			xj := x[j]
-			f.ux[f.up[k]+t] = xj
-			scale = max(scale, math.Abs(xj))
-			for pp := f.lp[j]; pp < f.lp[j+1]; pp++ {
-				x[f.li[pp]] -= f.lx[pp] * xj
+			uk[t] = xj
+			scale = maxAbs(scale, xj)
+			lj, vj := li[f.lp[j]:f.lp[j+1]], lx[f.lp[j]:f.lp[j+1]]
+			for pp, r := range lj {
+				x[r] -= vj[pp] * xj
 			}
 		}
 		pivot := x[k]
-		amax := math.Abs(pivot)
+		ap := math.Abs(pivot)
+		amax := ap
 		for _, j := range lRows {
-			amax = max(amax, math.Abs(x[j]))
+			amax = maxAbs(amax, x[j])
 		}
-		if !(math.Abs(pivot) >= f.tau*amax) || !(math.Abs(pivot) > tiny*max(scale, amax)) || math.IsInf(pivot, 0) {
+		if !(ap >= f.tau*amax) || !(ap > tiny*maxAbs(scale, amax)) || ap > math.MaxFloat64 {
 			return errPivot
 		}
 		f.udiag[k] = pivot
+		lk := lx[l0:l1]
 		for t, j := range lRows {
-			f.lx[f.lp[k]+t] = x[j] / pivot
+			lk[t] = x[j] / pivot
 		}
 	}
 	return nil
+}
+
+// maxAbs is max(m, |v|) for m >= 0 or NaN, NaN when either is, as the
+// built-in max gives it, without its call.
+func maxAbs(m, v float64) float64 {
+	if a := math.Abs(v); a > m || a != a {
+		return a
+	}
+	return m
 }
 
 // Solve sets dst to the solution x of A x = b. dst and b may be the same

@@ -369,3 +369,50 @@ func TestRefactorAfterSingular(t *testing.T) {
 	}
 	checkAgainst(t, "after singular", f, a, rand.New(rand.NewPCG(1, 1)))
 }
+
+// TestCopyFrom: a copy refactors and solves to the same bits as the
+// original, into reused storage, and copying nil empties the LU.
+func TestCopyFrom(t *testing.T) {
+	rnd := rand.New(rand.NewPCG(7, 8))
+	a := fromDense(blockTridiag(rnd, 12, 3), nil)
+	src, err := Factorize(a, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	other, err := Factorize(fromDense(tridiag(5), nil), nil) // storage of another shape
+	if err != nil {
+		t.Fatal(err)
+	}
+	other.CopyFrom(src)
+	for i := range a.Val {
+		a.Val[i] *= 1 + 0.01*rnd.NormFloat64()
+	}
+	if err := src.Refactor(a); err != nil {
+		t.Fatal(err)
+	}
+	if err := other.Refactor(a); err != nil {
+		t.Fatal(err)
+	}
+	if _, _, fresh, kept := other.Stats(); fresh != 0 || kept != 1 {
+		t.Errorf("the copy chose pivots afresh (fresh %d, kept %d), want the source's kept", fresh, kept)
+	}
+	b := make([]float64, a.Rows)
+	for i := range b {
+		b[i] = rnd.NormFloat64()
+	}
+	x1, x2 := make([]float64, a.Rows), make([]float64, a.Rows)
+	src.Solve(x1, b)
+	other.Solve(x2, b)
+	for i := range x1 {
+		if math.Float64bits(x1[i]) != math.Float64bits(x2[i]) {
+			t.Fatalf("x[%d]: copy %v, source %v", i, x2[i], x1[i])
+		}
+	}
+	other.CopyFrom(nil)
+	if err := other.Refactor(a); err != nil {
+		t.Fatal(err)
+	}
+	if _, _, fresh, _ := other.Stats(); fresh != 1 {
+		t.Errorf("after copying nil: %d fresh factorisations, want 1", fresh)
+	}
+}
