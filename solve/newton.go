@@ -662,7 +662,7 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 		if pt.lu == nil {
 			pt.lu, err = sparse.Factorize(&pt.a, nil)
 		} else {
-			err = pt.lu.Refactor(&pt.a)
+			err = pt.lu.RefactorValues(pt.a.Val)
 		}
 		if err != nil {
 			pt.lu = nil

@@ -535,7 +535,7 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	if w.lu == nil {
 		w.lu, err = sparse.Factorize(csr, nil)
 	} else {
-		err = w.lu.Refactor(csr)
+		err = w.lu.RefactorValues(jval)
 	}
 	if err != nil {
 		w.lu = nil

@@ -133,6 +133,25 @@ func (f *LU) CopyFrom(src *LU) {
 	f.refactored, f.fresh = 0, 0
 }
 
+// RefactorValues is Refactor for a matrix with the pattern f was last
+// analysed for, given by its values alone (in the order of that pattern's
+// CSR entries): it skips checking and comparing the pattern, which costs
+// as much as the refactorisation on small matrices.
+func (f *LU) RefactorValues(val []float64) error {
+	if f.rowPtr == nil || len(val) < len(f.colIdx) {
+		panic("sparse: RefactorValues: no pattern analysed, or too few values")
+	}
+	a := CSR{Rows: f.n, Cols: f.n, RowPtr: f.rowPtr, ColIdx: f.colIdx, Val: val}
+	f.gather(&a)
+	if f.p != nil {
+		if err := f.refactor(); err == nil && f.p != nil {
+			f.refactored++
+			return nil
+		}
+	}
+	return f.factor()
+}
+
 // Stats reports the number of entries in L and U (diagonal included in U),
 // and how many factorisations chose new pivots (fresh) or kept the previous
 // ones (kept).

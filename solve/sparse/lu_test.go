@@ -416,3 +416,45 @@ func TestCopyFrom(t *testing.T) {
 		t.Errorf("after copying nil: %d fresh factorisations, want 1", fresh)
 	}
 }
+
+// TestRefactorValues: refactoring by values alone gives Refactor's bits,
+// keeping the pivots, and falls back to fresh pivots the same way.
+func TestRefactorValues(t *testing.T) {
+	rnd := rand.New(rand.NewPCG(9, 10))
+	a := fromDense(blockTridiag(rnd, 15, 2), nil)
+	f1, err := Factorize(a, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f2 := new(LU)
+	f2.CopyFrom(f1)
+	for round, scale := range []float64{0.01, 0.01, 3} {
+		for i := range a.Val {
+			a.Val[i] *= 1 + scale*rnd.NormFloat64()
+		}
+		err1, err2 := f1.Refactor(a), f2.RefactorValues(a.Val)
+		if (err1 == nil) != (err2 == nil) {
+			t.Fatalf("round %d: Refactor %v, RefactorValues %v", round, err1, err2)
+		}
+		if err1 != nil {
+			continue
+		}
+		b := make([]float64, a.Rows)
+		for i := range b {
+			b[i] = rnd.NormFloat64()
+		}
+		x1, x2 := make([]float64, a.Rows), make([]float64, a.Rows)
+		f1.Solve(x1, b)
+		f2.Solve(x2, b)
+		for i := range x1 {
+			if math.Float64bits(x1[i]) != math.Float64bits(x2[i]) {
+				t.Fatalf("round %d, x[%d]: by values %v, Refactor %v", round, i, x2[i], x1[i])
+			}
+		}
+		_, _, fr1, k1 := f1.Stats()
+		_, _, fr2, k2 := f2.Stats()
+		if fr1-1 != fr2 || k1 != k2 { // f1 counts its first factorisation
+			t.Errorf("round %d: fresh/kept %d/%d by values, %d/%d by Refactor", round, fr2, k2, fr1, k1)
+		}
+	}
+}
