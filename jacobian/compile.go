@@ -104,7 +104,7 @@ func Compile(sys *model.System) (*Program, error) {
 		f := l.schedule()
 		prog.size = max(prog.size, prog.base+len(f.code))
 		prog.dsize = max(prog.dsize, int(l.dnext))
-		return f, revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP)}
+		return f, revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP), sweeps: l.sweeps}
 	}
 	prog.eqFwd, prog.eqRev = lower(prog.eqs)
 	prog.outFwd, prog.outRev = lower(prog.outs)
@@ -126,6 +126,7 @@ func Compile(sys *model.System) (*Program, error) {
 // or only those whose result depends on x or on p.
 type revSweeps struct {
 	all, x, p []batch
+	sweeps    []sweep // every step of every tape, for paramBatches
 }
 
 // maxErrors is the number of errors Compile reports before it stops.

@@ -2,6 +2,7 @@ package jacobian
 
 import (
 	"fmt"
+	"slices"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -23,6 +24,11 @@ type Eval struct {
 	padj   []float64 // parameter adjoints, scattered by index, kept zero between uses
 	xw, pw []float64 // perturbed copies of x and p for finite differences
 	f1, f2 []float64 // residuals for finite differences
+
+	// The equations' reverse steps leading to the parameters last asked
+	// of ParamJacobian, built on first use (an Eval is one caller's).
+	pjCols []int
+	pjRev  revSweeps
 }
 
 // check checks the lengths of x and p and copies them into the value space.
@@ -208,10 +214,24 @@ func (e *Eval) ResidualJacobianParams(f []float64, dst *Sparse, dp *mat.Dense, x
 
 // ParamJacobian sets column k of dst to dF/dp[cols[k]] at (x, p); dst has one
 // row per equation and len(cols) columns.
+//
+// Only the reverse steps that lead to those parameters run: the first call
+// with a set of columns prepares them (and allocates), later calls with the
+// same columns reuse them.
 func (e *Eval) ParamJacobian(dst *mat.Dense, x, p []float64, cols []int) error {
 	e.check(x, p)
 	checkDims("dst", dst, len(e.prog.eqs), len(cols))
-	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, &e.prog.eqRev, cols)
+	if e.pjCols == nil || !slices.Equal(cols, e.pjCols) {
+		for _, c := range cols {
+			if c < 0 || c >= e.prog.np {
+				panic(fmt.Sprintf("jacobian: parameter column %d out of range [0, %d)", c, e.prog.np))
+			}
+		}
+		rev := e.prog.eqRev
+		rev.p = paramBatches(e.prog.eqs, rev.sweeps, cols, e.prog.np)
+		e.pjCols, e.pjRev = slices.Clone(cols), rev
+	}
+	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, &e.pjRev, cols)
 }
 
 // OutputGradients sets dx to dy/dx (one row per output, one column per

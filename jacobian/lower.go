@@ -56,6 +56,7 @@ type sweep struct {
 	code  []opcode
 	lanes []rlane
 	deps  []uint8 // for each step, whether its result depends on x (depX), on p (depP)
+	ops   []int32 // for each step, the op of the source form it runs
 }
 
 // Dependence of a value on the unknowns and on the parameters.
@@ -204,6 +205,7 @@ func (l *lowering) reverse(t *tape) {
 		}
 		sw.lanes = append(sw.lanes, r)
 		sw.deps = append(sw.deps, dep[k])
+		sw.ops = append(sw.ops, int32(k))
 	}
 	for k := range n - 1 {
 		if c := t.ops[k].code; c != opConst && !reached[k] {
@@ -221,18 +223,59 @@ func (l *lowering) reverse(t *tape) {
 // the other way round): every step reaching an x-dependent adjoint is kept,
 // the first to reach it included.
 func (l *lowering) batches(need uint8) []batch {
-	sweeps := l.sweeps
-	if need != depAll {
-		sweeps = make([]sweep, len(l.sweeps))
-		for i, sw := range l.sweeps {
-			for s, dep := range sw.deps {
-				if dep&need != 0 {
-					sweeps[i].code = append(sweeps[i].code, sw.code[s])
-					sweeps[i].lanes = append(sweeps[i].lanes, sw.lanes[s])
-				}
+	if need == depAll {
+		return group(l.sweeps)
+	}
+	return group(filterSweeps(l.sweeps, func(i, s int) bool { return l.sweeps[i].deps[s]&need != 0 }))
+}
+
+// filterSweeps returns the sweeps with only the steps s of sweep i for which
+// keep(i, s).
+func filterSweeps(sweeps []sweep, keep func(i, s int) bool) []sweep {
+	out := make([]sweep, len(sweeps))
+	for i, sw := range sweeps {
+		for s := range sw.code {
+			if keep(i, s) {
+				out[i].code = append(out[i].code, sw.code[s])
+				out[i].lanes = append(out[i].lanes, sw.lanes[s])
 			}
 		}
 	}
+	return out
+}
+
+// paramBatches returns the reverse batches of the tapes (whose sweeps are
+// given) that keep only the steps whose result depends on one of the
+// parameters cols: the derivatives with respect to those parameters are
+// those of all steps, to the bit (every step adding to an adjoint that
+// depends on them depends on them too, the first to reach it included),
+// at a fraction of the cost when the others (a relative volatility, say)
+// sit in large subexpressions.
+func paramBatches(tapes []*tape, sweeps []sweep, cols []int, np int) []batch {
+	sel := make([]bool, np)
+	for _, c := range cols {
+		sel[c] = true
+	}
+	deps := make([][]bool, len(tapes))
+	for i, t := range tapes {
+		d := make([]bool, len(t.ops))
+		for k, o := range t.ops {
+			switch o.code {
+			case opParam:
+				d[k] = sel[o.a]
+			case opVar, opConst:
+			default:
+				d[k] = d[o.a] || (o.code.binary() && d[o.b])
+			}
+		}
+		deps[i] = d
+	}
+	return group(filterSweeps(sweeps, func(i, s int) bool { return deps[i][sweeps[i].ops[s]] }))
+}
+
+// group gathers sweeps into batches, one per distinct sequence of ops, in
+// order of first appearance.
+func group(sweeps []sweep) []batch {
 	var out []batch
 	var members [][]int
 	index := map[string]int{}
