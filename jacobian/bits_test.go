@@ -356,20 +356,6 @@ func compareBits(t *testing.T, prog *Program, e *Eval, ref *refEval, x, p []floa
 			check(fmt.Sprintf("ParamJacobian %v", sub), e.ParamJacobian(sdp, x, p, sub), ref.gradRows(nil, swdp, prog.eqs, x, p, sub),
 				sdp.RawMatrix().Data, swdp.RawMatrix().Data)
 		}
-		// The combined evaluation: residual and Jacobian as ResidualJacobian
-		// (errors included), the parameter columns as ParamJacobian's
-		// whenever the Jacobian evaluates.
-		f, wf := nanSlice(neq), nanSlice(neq)
-		jac, wjac := prog.NewJacobian(), prog.NewJacobian()
-		copy(jac.Val, nanSlice(len(jac.Val)))
-		copy(wjac.Val, jac.Val)
-		dp2 := nanDense(neq, len(cols))
-		err, werrJ := e.ResidualJacobianParams(f, jac, dp2, x, p, cols), ref.residualJacobian(wf, wjac, x, p)
-		check("ResidualJacobianParams f", err, werrJ, f, wf)
-		check("ResidualJacobianParams J", err, werrJ, jac.Val, wjac.Val)
-		if err == nil && werr == nil {
-			check("ResidualJacobianParams dp", nil, nil, dp2.RawMatrix().Data, wdp.RawMatrix().Data)
-		}
 	}
 	if nout > 0 && prog.NumUnknowns() > 0 {
 		dx, wdx := nanDense(nout, prog.NumUnknowns()), nanDense(nout, prog.NumUnknowns())

@@ -157,61 +157,6 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	return nil
 }
 
-// ResidualJacobianParams is ResidualJacobian that also sets column k of dp
-// to dF/dp[cols[k]] from the same sweeps, for a caller that needs both at a
-// point it cannot tell in advance (the last iterate of Newton's method, when
-// it will want the gains there). Residual and Jacobian are checked and
-// reported as ResidualJacobian does them, to the bit; the parameter
-// derivatives are not checked, so that a solve does not fail on them: they
-// are those of ParamJacobian, which says where one is not finite.
-func (e *Eval) ResidualJacobianParams(f []float64, dst *Sparse, dp *mat.Dense, x, p []float64, cols []int) error {
-	e.check(x, p)
-	if f != nil {
-		checkLen("f", len(f), len(e.prog.eqs))
-	}
-	pat := e.prog.pattern
-	if dst.Rows != pat.Rows || dst.Cols != pat.Cols || len(dst.Val) != len(pat.ColIdx) {
-		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
-	}
-	checkDims("dp", dp, len(e.prog.eqs), len(cols))
-	for _, c := range cols {
-		if c < 0 || c >= e.prog.np {
-			panic(fmt.Sprintf("jacobian: parameter column %d out of range [0, %d)", c, e.prog.np))
-		}
-	}
-	forward(e.prog.eqFwd, e.w, e.prog.base)
-	reverse(e.prog.eqs, e.prog.eqRev.all, e.d, e.w)
-	raw := dp.RawMatrix()
-	for i, t := range e.prog.eqs {
-		r, err := e.value(t)
-		if err != nil {
-			return err
-		}
-		if f != nil {
-			f[i] = r
-		}
-		row := dst.Val[pat.RowPtr[i]:pat.RowPtr[i+1]]
-		for k, d := range e.d[t.adj0 : int(t.adj0)+len(row)] {
-			if !finite(d) {
-				vr := t.vars[k]
-				return e.derivFault(e.prog.eqs, &e.prog.eqRev, t, e.prog.xNames[vr.index])
-			}
-			row[k] = d
-		}
-		for k, vr := range t.params {
-			e.padj[vr.index] = e.d[int(t.adj0)+len(t.vars)+k]
-		}
-		out := raw.Data[i*raw.Stride : i*raw.Stride+len(cols)]
-		for k, c := range cols {
-			out[k] = e.padj[c]
-		}
-		for _, vr := range t.params {
-			e.padj[vr.index] = 0
-		}
-	}
-	return nil
-}
-
 // ParamJacobian sets column k of dst to dF/dp[cols[k]] at (x, p); dst has one
 // row per equation and len(cols) columns.
 //

@@ -558,16 +558,15 @@ func TestNoAllocations(t *testing.T) {
 	fdj := mat.NewDense(prog.NumEquations(), prog.NumUnknowns(), nil)
 	outs, defs, checks := make([]float64, prog.NumOutputs()), make([]float64, prog.NumDefines()), make([]float64, prog.NumChecks())
 	for name, fn := range map[string]func() error{
-		"Residual":               func() error { return e.Residual(f, x, p) },
-		"Outputs":                func() error { return e.Outputs(outs, x, p) },
-		"Defines":                func() error { return e.Defines(defs, x, p) },
-		"Checks":                 func() error { return e.Checks(checks, x, p) },
-		"Jacobian":               func() error { return e.Jacobian(jac, x, p) },
-		"ResidualJacobian":       func() error { return e.ResidualJacobian(f, jac, x, p) },
-		"ParamJacobian":          func() error { return e.ParamJacobian(dp, x, p, cols) },
-		"ResidualJacobianParams": func() error { return e.ResidualJacobianParams(f, jac, dp, x, p, cols) },
-		"OutputGradients":        func() error { return e.OutputGradients(dx, dyp, x, p, cols) },
-		"JacobianFD":             func() error { return e.JacobianFD(fdj, x, p) },
+		"Residual":         func() error { return e.Residual(f, x, p) },
+		"Outputs":          func() error { return e.Outputs(outs, x, p) },
+		"Defines":          func() error { return e.Defines(defs, x, p) },
+		"Checks":           func() error { return e.Checks(checks, x, p) },
+		"Jacobian":         func() error { return e.Jacobian(jac, x, p) },
+		"ResidualJacobian": func() error { return e.ResidualJacobian(f, jac, x, p) },
+		"ParamJacobian":    func() error { return e.ParamJacobian(dp, x, p, cols) },
+		"OutputGradients":  func() error { return e.OutputGradients(dx, dyp, x, p, cols) },
+		"JacobianFD":       func() error { return e.JacobianFD(fdj, x, p) },
 	} {
 		var err error
 		if n := testing.AllocsPerRun(5, func() { err = fn() }); n != 0 || err != nil {

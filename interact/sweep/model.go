@@ -225,9 +225,7 @@ type modelWorker struct {
 
 	lu    *sparse.LU
 	fp    *mat.Dense // dF/dp for the inputs, then the axes
-	fpAt  []float64  // the x where fp was last evaluated, when fpOK
-	fpOK  bool
-	dxda  []float64 // dx/dp of each axis at the last point analysed, axis by axis
+	dxda  []float64  // dx/dp of each axis at the last point analysed, axis by axis
 	xpred []float64
 	dydx  *mat.Dense
 	dydu  *mat.Dense
@@ -245,22 +243,14 @@ func (m *modelRun) newWorker() *modelWorker {
 	n, no, ni := len(m.sys.Unknowns), len(m.sys.Outputs), len(m.sys.Inputs)
 	w := &modelWorker{m: m, eval: m.prog.NewEval(),
 		fp: mat.NewDense(len(m.sys.Equations), len(m.pcols), nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil), k: mat.NewDense(no, ni, nil),
-		dxda: make([]float64, len(m.axes)*n), fpAt: make([]float64, n), xpred: make([]float64, n),
+		dxda: make([]float64, len(m.axes)*n), xpred: make([]float64, n),
 		rhs: make([]float64, n), z: make([]float64, n), work: make([]float64, n), y: make([]float64, no)}
 	w.prob = &solve.Problem{
 		N: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx,
 		Residual: func(f, x []float64) error { return w.eval.Residual(f, x, w.p) },
-		// Every Jacobian also gives dF/dp at no extra forward sweep: the last
-		// one of a solve is at the solution, where the gains want it.
 		ResidualJacobian: func(f, jval, x []float64) error {
 			j := jacobian.Sparse{Rows: n, Cols: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx, Val: jval}
-			w.fpOK = false
-			if err := w.eval.ResidualJacobianParams(f, &j, w.fp, x, w.p, m.pcols); err != nil {
-				return err
-			}
-			copy(w.fpAt, x)
-			w.fpOK = true
-			return nil
+			return w.eval.ResidualJacobian(f, &j, x, w.p)
 		},
 		Lower: m.lower, Upper: m.upper, VarNames: m.names, EqNames: m.eqNames,
 	}
@@ -285,7 +275,7 @@ func (m *modelRun) newWorker() *modelWorker {
 // converge quickly it solves from the neighbour's state with the solver's
 // full strategy (blocks, homotopy), as from any guess.
 func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
-	w.p, w.fpOK = p, false
+	w.p = p
 	if from.Nominal {
 		// A new chain: keep nothing from other chains' points; start from
 		// the nominal point's pivots, as every chain does.
@@ -541,12 +531,8 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 		w.lu = nil
 		return nil, nil, fmt.Errorf("no gains: the Jacobian dF/dx is singular at this point (%v)", err)
 	}
-	if !w.fpOK || !sameBits(w.fpAt, x) || !allFinite(w.fp.RawMatrix().Data) {
-		// Not from the solver's last evaluation, or not finite: evaluate
-		// (and say which derivative is not finite).
-		if err := w.eval.ParamJacobian(w.fp, x, p, m.pcols); err != nil {
-			return nil, nil, err
-		}
+	if err := w.eval.ParamJacobian(w.fp, x, p, m.pcols); err != nil {
+		return nil, nil, err
 	}
 	if err := w.eval.OutputGradients(w.dydx, w.dydu, x, p, m.sys.Inputs); err != nil {
 		return nil, nil, err
@@ -579,24 +565,6 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 		return nil, k, err
 	}
 	return a, k, nil
-}
-
-func sameBits(a, b []float64) bool {
-	for i, v := range a {
-		if math.Float64bits(v) != math.Float64bits(b[i]) {
-			return false
-		}
-	}
-	return len(a) == len(b)
-}
-
-func allFinite(v []float64) bool {
-	for _, x := range v {
-		if math.IsInf(x, 0) || math.IsNaN(x) {
-			return false
-		}
-	}
-	return true
 }
 
 // systemID is a digest of the expanded system: symbols, values and
