@@ -19,7 +19,9 @@ import (
 // analyse many gain sets with the same options, use an Analyzer, which
 // gives the same numbers without allocating for each one.
 func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
-	return NewAnalyzer(opts).Analyze(g)
+	z := NewAnalyzer(opts)
+	z.fresh = true
+	return z.Analyze(g)
 }
 
 // Analyzer analyses gain sets one after another with the same options,
@@ -28,9 +30,10 @@ func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
 // for bit those of Analyze.
 //
 // The Analysis that Analyzer.Analyze returns, and everything it points to
-// (K, Kd, RGA, Sensitivity, SVD, Dl, Dr, Outputs, Inputs, the pairings and
-// their slices and matrices), belong to the Analyzer and are overwritten by
-// the next call: copy what you keep. An Analyzer is not safe for concurrent
+// (K, Kd, RGA, Sensitivity, SVD, Dl, Dr, the pairings and their slices and
+// matrices), belong to the Analyzer and are overwritten by the next call:
+// copy what you keep. Outputs, Inputs and Disturbances may be the gain
+// set's own slices. An Analyzer is not safe for concurrent
 // use; give each goroutine its own.
 type Analyzer struct {
 	opts Options
@@ -58,6 +61,7 @@ type Analyzer struct {
 	store []int
 	res   []PairingResult
 	slots []resultSlot
+	fresh bool // the Analysis will be the caller's: copy the signal lists
 }
 
 // resultSlot is the storage of the k-th detailed pairing.
@@ -124,14 +128,20 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		}
 	}
 	a.OutputIndex, a.InputIndex = rows, cols
-	z.outs, z.ins = z.outs[:0], z.ins[:0]
-	for _, i := range rows {
-		z.outs = append(z.outs, g.Outputs[i])
+	if square && !z.fresh {
+		// Every signal is kept, in order: share the gain set's lists, as
+		// Disturbances always does.
+		a.Outputs, a.Inputs = g.Outputs, g.Inputs
+	} else {
+		z.outs, z.ins = z.outs[:0], z.ins[:0]
+		for _, i := range rows {
+			z.outs = append(z.outs, g.Outputs[i])
+		}
+		for _, j := range cols {
+			z.ins = append(z.ins, g.Inputs[j])
+		}
+		a.Outputs, a.Inputs = z.outs, z.ins
 	}
-	for _, j := range cols {
-		z.ins = append(z.ins, g.Inputs[j])
-	}
-	a.Outputs, a.Inputs = z.outs, z.ins
 	a.Disturbances = g.Disturbances
 	a.K = &z.k
 	if g.Kd != nil {
@@ -173,6 +183,13 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		maxOut = 10
 	}
 	z.cands = z.cands[:0]
+	if n <= MaxEnumerate && (maxOut < 0 || maxOut >= factorial(n)) {
+		if !opts.Brief {
+			a.Method = fmt.Sprintf("all %d pairings enumerated", factorial(n))
+		}
+		z.detailAll(n)
+		return a, nil
+	}
 	if n <= MaxEnumerate {
 		if !opts.Brief {
 			a.Method = fmt.Sprintf("all %d pairings enumerated", factorial(n))
@@ -239,13 +256,55 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		res = append(res, PairingResult{})
 		sc.detail(&res[t], c.p, &z.slots[t])
 		// res[:t] is sorted: insert the new result in its place.
-		for j := t; j > 0 && compareResults(res[j-1], res[j]) > 0; j-- {
+		for j := t; j > 0 && compareResultsAt(&res[j-1], &res[j]) > 0; j-- {
 			res[j-1], res[j] = res[j], res[j-1]
 		}
 	}
 	z.res = res
 	a.Pairings = res[:min(maxOut, len(res))]
 	return a, nil
+}
+
+// detailAll details every pairing of the n×n analysis, for when all of
+// them are wanted: the screen's bound and its early stop then save nothing.
+// The result is what the screen-first path gives: the screen rejects
+// exactly the pairings the detail rejects (a paired λ <= 0 or gain 0, and
+// for n >= 3 NI < 0 or NaN, which needs a zero paired gain), and the ranking
+// is the total order of compareResults.
+func (z *Analyzer) detailAll(n int) {
+	a, sc := &z.a, &z.sc
+	p := Pairing(seqInto(z.per, n))
+	z.per = p
+	res := z.res[:0]
+	for t := 0; ; t++ {
+		if t == len(z.slots) {
+			z.slots = append(z.slots, resultSlot{})
+		}
+		res = append(res, PairingResult{})
+		sc.detail(&res[t], p, &z.slots[t])
+		if res[t].Verdict == Rejected {
+			a.Rejected++
+		}
+		if !nextPermutation(p) {
+			break
+		}
+	}
+	a.Screened = len(res)
+	if len(res) <= 24 {
+		for t := 1; t < len(res); t++ {
+			for j := t; j > 0 && compareResultsAt(&res[j-1], &res[j]) > 0; j-- {
+				res[j-1], res[j] = res[j], res[j-1]
+			}
+		}
+	} else {
+		slices.SortFunc(res, compareResults)
+	}
+	z.res = res
+	a.Pairings = res
+}
+
+func compareResultsAt(x, y *PairingResult) int {
+	return candidate{p: x.Pairs, rejected: x.Verdict == Rejected, score: x.Score}.compare(candidate{p: y.Pairs, rejected: y.Verdict == Rejected, score: y.Score})
 }
 
 func compareResults(x, y PairingResult) int {
@@ -372,7 +431,8 @@ func (s *screener) detail(r *PairingResult, p Pairing, slot *resultSlot) {
 	a, th, words := s.a, s.th, s.words
 	slot.pairs = append(slot.pairs[:0], p...)
 	slot.lambdas = resizeFloats(slot.lambdas, s.n)
-	*r = PairingResult{Pairs: slot.pairs, Lambdas: slot.lambdas}
+	r.Pairs, r.Lambdas, r.Label, r.Reasons, r.Integrity, r.RDG = slot.pairs, slot.lambdas, "", nil, nil, nil
+	r.Niederlinski, r.RGANumber, r.Verdict, r.Score = 0, 0, 0, 0
 	if words {
 		r.Label = p.Label(s.outN, s.inN)
 	}
