@@ -360,8 +360,7 @@ func (s *screener) init(a *Analysis, th Thresholds, kinv, kinvKd *mat.Dense, iw 
 		s.sumAbs += math.Abs(v)
 	}
 	if a.Kd != nil {
-		kinvKd.Reset()
-		kinvKd.Mul(kinv, a.Kd)
+		mulInto(kinvKd, kinv, a.Kd)
 		s.kinvKd = kinvKd
 	}
 }
@@ -635,4 +634,34 @@ func resizeInts(s []int, n int) []int {
 		return make([]int, n)
 	}
 	return s[:n]
+}
+
+// mulInto stores a·b in dst (reshaped, not aliasing a or b) as Dense.Mul
+// computes it: for the sizes of a gain matrix gonum's serial Dgemm, whose
+// arithmetic is written out here (rows of dst accumulated from +0 in the
+// order of a's columns, zero elements of a skipped); larger products go to
+// Dense.Mul itself.
+func mulInto(dst, a, b *mat.Dense) {
+	m, k := a.Dims()
+	_, n := b.Dims()
+	if m > 64 || n > 64 || k > 64 {
+		dst.Reset()
+		dst.Mul(a, b)
+		return
+	}
+	reshape(dst, m, n)
+	ar, br, dr := a.RawMatrix(), b.RawMatrix(), dst.RawMatrix()
+	for i := 0; i < m; i++ {
+		c := dr.Data[i*dr.Stride : i*dr.Stride+n]
+		for j := range c {
+			c[j] = 0
+		}
+		for l, v := range ar.Data[i*ar.Stride : i*ar.Stride+k] {
+			if v != 0 {
+				for j, x := range br.Data[l*br.Stride : l*br.Stride+n] {
+					c[j] += float64(v * x) // no multiply-add: gonum's kernel rounds both
+				}
+			}
+		}
+	}
 }
