@@ -83,6 +83,7 @@ type Options struct {
 }
 
 // Analysis is the interaction analysis of a gain set at one operating point.
+// (Analyzer.Analyze resets it field by field: a new field is reset there.)
 type Analysis struct {
 	Source  string
 	Scaling Scaling

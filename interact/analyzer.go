@@ -108,7 +108,12 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		}
 	}
 	a := &z.a
-	*a = Analysis{Source: g.Source, Scaling: opts.Scaling, Caution: Caution}
+	// Field by field: storing a whole struct with pointers costs more.
+	a.Source, a.Scaling, a.Caution = g.Source, opts.Scaling, Caution
+	a.Outputs, a.Inputs, a.Disturbances, a.OutputIndex, a.InputIndex = nil, nil, nil, nil, nil
+	a.K, a.Kd, a.Selection, a.RGA, a.Sensitivity, a.SVD = nil, nil, nil, nil, nil, nil
+	a.Det, a.MinCond, a.Dl, a.Dr = 0, 0, nil, nil
+	a.Method, a.Screened, a.Rejected, a.Pairings, a.Notes = "", 0, 0, nil, nil
 	z.rows, z.cols = seqInto(z.rows, m), seqInto(z.cols, n0)
 	rows, cols := z.rows, z.cols
 	if !square {
@@ -280,7 +285,11 @@ func (z *Analyzer) detailAll(n int) {
 		if t == len(z.slots) {
 			z.slots = append(z.slots, resultSlot{})
 		}
-		res = append(res, PairingResult{})
+		if t < cap(res) {
+			res = res[:t+1] // detail sets every field
+		} else {
+			res = append(res, PairingResult{})
+		}
 		sc.detail(&res[t], p, &z.slots[t])
 		if res[t].Verdict == Rejected {
 			a.Rejected++
@@ -350,7 +359,9 @@ type screener struct {
 // hand, and kinvKd is storage for K⁻¹Kd.
 func (s *screener) init(a *Analysis, th Thresholds, kinv, kinvKd *mat.Dense, iw *integrityWork, brief bool) {
 	n, _ := a.K.Dims()
-	*s = screener{a: a, th: th, n: n, det: a.Det, iw: iw, words: !brief}
+	// Field by field: storing a whole struct with pointers costs more.
+	s.a, s.th, s.n, s.det, s.iw, s.words = a, th, n, a.Det, iw, !brief
+	s.sumAbs, s.kinvKd, s.outN, s.inN, s.distN = 0, nil, nil, nil, nil
 	rr, kr := a.RGA.RawMatrix(), a.K.RawMatrix()
 	s.rga, s.rs, s.k, s.ks = rr.Data, rr.Stride, kr.Data, kr.Stride
 	if s.words {
@@ -383,7 +394,7 @@ func (s *screener) screen(p, store Pairing) candidate {
 			cautions++
 		}
 	}
-	ni := niederlinski(s.a.K, p, s.det)
+	ni := s.niederlinski(p)
 	if s.n >= 3 {
 		if ni < 0 || math.IsNaN(ni) {
 			c.rejected = true
@@ -396,6 +407,18 @@ func (s *screener) screen(p, store Pairing) candidate {
 	}
 	c.score = rgaNum + 2*float64(cautions)
 	return c
+}
+
+// niederlinski is the package's niederlinski on the screener's K.
+func (s *screener) niederlinski(p Pairing) float64 {
+	prod := 1.0
+	for i, j := range p {
+		prod *= s.k[i*s.ks+j]
+	}
+	if prod == 0 {
+		return math.NaN()
+	}
+	return float64(p.sign()) * s.det / prod
 }
 
 // rdgCautions counts the relative disturbance gains of p above RDGHigh,
@@ -498,7 +521,7 @@ func (s *screener) detail(r *PairingResult, p Pairing, slot *resultSlot) {
 		l := s.rga[i*s.rs+j]
 		r.RGANumber += math.Abs(l-1) - math.Abs(l)
 	}
-	r.Niederlinski = niederlinski(a.K, p, s.det)
+	r.Niederlinski = s.niederlinski(p)
 	if s.n >= 3 {
 		switch {
 		case math.IsNaN(r.Niederlinski):
