@@ -50,11 +50,11 @@ func (w *luWork) resize(n int) {
 		return
 	}
 	w.n = n
-	w.lu = make([]float64, n*n)
-	w.ipiv = make([]int, n)
-	w.work = make([]float64, 4*n)
-	w.iwork = make([]int, n)
-	w.logs = make([]float64, n)
+	w.lu = resizeFloats(w.lu, n*n)
+	w.ipiv = resizeInts(w.ipiv, n)
+	w.work = resizeFloats(w.work, 4*n)
+	w.iwork = resizeInts(w.iwork, n)
+	w.logs = resizeFloats(w.logs, n)
 }
 
 // inverseDet is the package's inverseDet (mat.LU: its condition estimate,
