@@ -83,6 +83,7 @@ type Options struct {
 }
 
 // Analysis is the interaction analysis of a gain set at one operating point.
+// (Analyzer.Analyze resets it field by field: a new field is reset there.)
 type Analysis struct {
 	Source  string
 	Scaling Scaling
@@ -230,7 +231,13 @@ func zeroRoundoff(rga *mat.Dense) {
 	big := 1.0
 	for i := 0; i < raw.Rows; i++ {
 		for _, v := range raw.Data[i*raw.Stride : i*raw.Stride+raw.Cols] {
-			big = math.Max(big, math.Abs(v))
+			// math.Max(big, |v|), its special cases (NaN, and +Inf after
+			// a NaN) left to it.
+			if a := math.Abs(v); a > big {
+				big = a
+			} else if a != a || big != big {
+				big = math.Max(big, a)
+			}
 		}
 	}
 	tol := 1e-10 * big

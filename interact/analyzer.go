@@ -19,7 +19,9 @@ import (
 // analyse many gain sets with the same options, use an Analyzer, which
 // gives the same numbers without allocating for each one.
 func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
-	return NewAnalyzer(opts).Analyze(g)
+	z := NewAnalyzer(opts)
+	z.fresh = true
+	return z.Analyze(g)
 }
 
 // Analyzer analyses gain sets one after another with the same options,
@@ -28,9 +30,10 @@ func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
 // for bit those of Analyze.
 //
 // The Analysis that Analyzer.Analyze returns, and everything it points to
-// (K, Kd, RGA, Sensitivity, SVD, Dl, Dr, Outputs, Inputs, the pairings and
-// their slices and matrices), belong to the Analyzer and are overwritten by
-// the next call: copy what you keep. An Analyzer is not safe for concurrent
+// (K, Kd, RGA, Sensitivity, SVD, Dl, Dr, the pairings and their slices and
+// matrices), belong to the Analyzer and are overwritten by the next call:
+// copy what you keep. Outputs, Inputs and Disturbances may be the gain
+// set's own slices. An Analyzer is not safe for concurrent
 // use; give each goroutine its own.
 type Analyzer struct {
 	opts Options
@@ -58,6 +61,7 @@ type Analyzer struct {
 	store []int
 	res   []PairingResult
 	slots []resultSlot
+	fresh bool // the Analysis will be the caller's: copy the signal lists
 }
 
 // resultSlot is the storage of the k-th detailed pairing.
@@ -104,7 +108,12 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		}
 	}
 	a := &z.a
-	*a = Analysis{Source: g.Source, Scaling: opts.Scaling, Caution: Caution}
+	// Field by field: storing a whole struct with pointers costs more.
+	a.Source, a.Scaling, a.Caution = g.Source, opts.Scaling, Caution
+	a.Outputs, a.Inputs, a.Disturbances, a.OutputIndex, a.InputIndex = nil, nil, nil, nil, nil
+	a.K, a.Kd, a.Selection, a.RGA, a.Sensitivity, a.SVD = nil, nil, nil, nil, nil, nil
+	a.Det, a.MinCond, a.Dl, a.Dr = 0, 0, nil, nil
+	a.Method, a.Screened, a.Rejected, a.Pairings, a.Notes = "", 0, 0, nil, nil
 	z.rows, z.cols = seqInto(z.rows, m), seqInto(z.cols, n0)
 	rows, cols := z.rows, z.cols
 	if !square {
@@ -124,14 +133,20 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		}
 	}
 	a.OutputIndex, a.InputIndex = rows, cols
-	z.outs, z.ins = z.outs[:0], z.ins[:0]
-	for _, i := range rows {
-		z.outs = append(z.outs, g.Outputs[i])
+	if square && !z.fresh {
+		// Every signal is kept, in order: share the gain set's lists, as
+		// Disturbances always does.
+		a.Outputs, a.Inputs = g.Outputs, g.Inputs
+	} else {
+		z.outs, z.ins = z.outs[:0], z.ins[:0]
+		for _, i := range rows {
+			z.outs = append(z.outs, g.Outputs[i])
+		}
+		for _, j := range cols {
+			z.ins = append(z.ins, g.Inputs[j])
+		}
+		a.Outputs, a.Inputs = z.outs, z.ins
 	}
-	for _, j := range cols {
-		z.ins = append(z.ins, g.Inputs[j])
-	}
-	a.Outputs, a.Inputs = z.outs, z.ins
 	a.Disturbances = g.Disturbances
 	a.K = &z.k
 	if g.Kd != nil {
@@ -173,6 +188,13 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		maxOut = 10
 	}
 	z.cands = z.cands[:0]
+	if n <= MaxEnumerate && (maxOut < 0 || maxOut >= factorial(n)) {
+		if !opts.Brief {
+			a.Method = fmt.Sprintf("all %d pairings enumerated", factorial(n))
+		}
+		z.detailAll(n)
+		return a, nil
+	}
 	if n <= MaxEnumerate {
 		if !opts.Brief {
 			a.Method = fmt.Sprintf("all %d pairings enumerated", factorial(n))
@@ -239,13 +261,59 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		res = append(res, PairingResult{})
 		sc.detail(&res[t], c.p, &z.slots[t])
 		// res[:t] is sorted: insert the new result in its place.
-		for j := t; j > 0 && compareResults(res[j-1], res[j]) > 0; j-- {
+		for j := t; j > 0 && compareResultsAt(&res[j-1], &res[j]) > 0; j-- {
 			res[j-1], res[j] = res[j], res[j-1]
 		}
 	}
 	z.res = res
 	a.Pairings = res[:min(maxOut, len(res))]
 	return a, nil
+}
+
+// detailAll details every pairing of the n×n analysis, for when all of
+// them are wanted: the screen's bound and its early stop then save nothing.
+// The result is what the screen-first path gives: the screen rejects
+// exactly the pairings the detail rejects (a paired λ <= 0 or gain 0, and
+// for n >= 3 NI < 0 or NaN, which needs a zero paired gain), and the ranking
+// is the total order of compareResults.
+func (z *Analyzer) detailAll(n int) {
+	a, sc := &z.a, &z.sc
+	p := Pairing(seqInto(z.per, n))
+	z.per = p
+	res := z.res[:0]
+	for t := 0; ; t++ {
+		if t == len(z.slots) {
+			z.slots = append(z.slots, resultSlot{})
+		}
+		if t < cap(res) {
+			res = res[:t+1] // detail sets every field
+		} else {
+			res = append(res, PairingResult{})
+		}
+		sc.detail(&res[t], p, &z.slots[t])
+		if res[t].Verdict == Rejected {
+			a.Rejected++
+		}
+		if !nextPermutation(p) {
+			break
+		}
+	}
+	a.Screened = len(res)
+	if len(res) <= 24 {
+		for t := 1; t < len(res); t++ {
+			for j := t; j > 0 && compareResultsAt(&res[j-1], &res[j]) > 0; j-- {
+				res[j-1], res[j] = res[j], res[j-1]
+			}
+		}
+	} else {
+		slices.SortFunc(res, compareResults)
+	}
+	z.res = res
+	a.Pairings = res
+}
+
+func compareResultsAt(x, y *PairingResult) int {
+	return candidate{p: x.Pairs, rejected: x.Verdict == Rejected, score: x.Score}.compare(candidate{p: y.Pairs, rejected: y.Verdict == Rejected, score: y.Score})
 }
 
 func compareResults(x, y PairingResult) int {
@@ -291,7 +359,9 @@ type screener struct {
 // hand, and kinvKd is storage for K⁻¹Kd.
 func (s *screener) init(a *Analysis, th Thresholds, kinv, kinvKd *mat.Dense, iw *integrityWork, brief bool) {
 	n, _ := a.K.Dims()
-	*s = screener{a: a, th: th, n: n, det: a.Det, iw: iw, words: !brief}
+	// Field by field: storing a whole struct with pointers costs more.
+	s.a, s.th, s.n, s.det, s.iw, s.words = a, th, n, a.Det, iw, !brief
+	s.sumAbs, s.kinvKd, s.outN, s.inN, s.distN = 0, nil, nil, nil, nil
 	rr, kr := a.RGA.RawMatrix(), a.K.RawMatrix()
 	s.rga, s.rs, s.k, s.ks = rr.Data, rr.Stride, kr.Data, kr.Stride
 	if s.words {
@@ -301,8 +371,7 @@ func (s *screener) init(a *Analysis, th Thresholds, kinv, kinvKd *mat.Dense, iw 
 		s.sumAbs += math.Abs(v)
 	}
 	if a.Kd != nil {
-		kinvKd.Reset()
-		kinvKd.Mul(kinv, a.Kd)
+		mulInto(kinvKd, kinv, a.Kd)
 		s.kinvKd = kinvKd
 	}
 }
@@ -325,7 +394,7 @@ func (s *screener) screen(p, store Pairing) candidate {
 			cautions++
 		}
 	}
-	ni := niederlinski(s.a.K, p, s.det)
+	ni := s.niederlinski(p)
 	if s.n >= 3 {
 		if ni < 0 || math.IsNaN(ni) {
 			c.rejected = true
@@ -338,6 +407,18 @@ func (s *screener) screen(p, store Pairing) candidate {
 	}
 	c.score = rgaNum + 2*float64(cautions)
 	return c
+}
+
+// niederlinski is the package's niederlinski on the screener's K.
+func (s *screener) niederlinski(p Pairing) float64 {
+	prod := 1.0
+	for i, j := range p {
+		prod *= s.k[i*s.ks+j]
+	}
+	if prod == 0 {
+		return math.NaN()
+	}
+	return float64(p.sign()) * s.det / prod
 }
 
 // rdgCautions counts the relative disturbance gains of p above RDGHigh,
@@ -372,7 +453,8 @@ func (s *screener) detail(r *PairingResult, p Pairing, slot *resultSlot) {
 	a, th, words := s.a, s.th, s.words
 	slot.pairs = append(slot.pairs[:0], p...)
 	slot.lambdas = resizeFloats(slot.lambdas, s.n)
-	*r = PairingResult{Pairs: slot.pairs, Lambdas: slot.lambdas}
+	r.Pairs, r.Lambdas, r.Label, r.Reasons, r.Integrity, r.RDG = slot.pairs, slot.lambdas, "", nil, nil, nil
+	r.Niederlinski, r.RGANumber, r.Verdict, r.Score = 0, 0, 0, 0
 	if words {
 		r.Label = p.Label(s.outN, s.inN)
 	}
@@ -439,7 +521,7 @@ func (s *screener) detail(r *PairingResult, p Pairing, slot *resultSlot) {
 		l := s.rga[i*s.rs+j]
 		r.RGANumber += math.Abs(l-1) - math.Abs(l)
 	}
-	r.Niederlinski = niederlinski(a.K, p, s.det)
+	r.Niederlinski = s.niederlinski(p)
 	if s.n >= 3 {
 		switch {
 		case math.IsNaN(r.Niederlinski):
@@ -575,4 +657,34 @@ func resizeInts(s []int, n int) []int {
 		return make([]int, n)
 	}
 	return s[:n]
+}
+
+// mulInto stores a·b in dst (reshaped, not aliasing a or b) as Dense.Mul
+// computes it: for the sizes of a gain matrix gonum's serial Dgemm, whose
+// arithmetic is written out here (rows of dst accumulated from +0 in the
+// order of a's columns, zero elements of a skipped); larger products go to
+// Dense.Mul itself.
+func mulInto(dst, a, b *mat.Dense) {
+	m, k := a.Dims()
+	_, n := b.Dims()
+	if m > 64 || n > 64 || k > 64 {
+		dst.Reset()
+		dst.Mul(a, b)
+		return
+	}
+	reshape(dst, m, n)
+	ar, br, dr := a.RawMatrix(), b.RawMatrix(), dst.RawMatrix()
+	for i := 0; i < m; i++ {
+		c := dr.Data[i*dr.Stride : i*dr.Stride+n]
+		for j := range c {
+			c[j] = 0
+		}
+		for l, v := range ar.Data[i*ar.Stride : i*ar.Stride+k] {
+			if v != 0 {
+				for j, x := range br.Data[l*br.Stride : l*br.Stride+n] {
+					c[j] += float64(v * x) // no multiply-add: gonum's kernel rounds both
+				}
+			}
+		}
+	}
 }

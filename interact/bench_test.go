@@ -64,6 +64,7 @@ func BenchmarkAnalyze8(b *testing.B) { analyzeBench(b, 8, 0, nil) }
 func BenchmarkAnalyzeBrief2(b *testing.B)   { analyzeBench(b, 2, 0, briefOpts) }
 func BenchmarkAnalyzeBrief3(b *testing.B)   { analyzeBench(b, 3, 0, briefOpts) }
 func BenchmarkAnalyzeBrief4(b *testing.B)   { analyzeBench(b, 4, 0, briefOpts) }
+func BenchmarkAnalyzeBrief8(b *testing.B)   { analyzeBench(b, 8, 0, briefOpts) }
 func BenchmarkAnalyzeBrief2Kd(b *testing.B) { analyzeBench(b, 2, 2, briefOpts) }
 func BenchmarkAnalyzeBrief4Kd(b *testing.B) { analyzeBench(b, 4, 2, briefOpts) }
 

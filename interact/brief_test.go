@@ -111,6 +111,21 @@ func checkBrief(t *testing.T, what string, g *GainSet, opts Options) *Analysis {
 	if d := briefDiff(brief, full); d != "" {
 		t.Fatalf("%s: brief and full analyses differ in %s", what, d)
 	}
+	// Both modes against the analysis before the Analyzer (ref_test.go).
+	for _, b := range []bool{false, true} {
+		opts.Brief = b
+		want, err := refAnalyze(g, &opts)
+		if err != nil {
+			t.Fatalf("%s: the reference fails (%v) where Analyze does not", what, err)
+		}
+		got := full
+		if b {
+			got = brief
+		}
+		if d := analysisDiff(got, want); d != "" {
+			t.Fatalf("%s (brief %v): differs from the reference in %s", what, b, d)
+		}
+	}
 	return full
 }
 

@@ -86,3 +86,32 @@ func ExampleBestPairings() {
 	// y1-u3 y2-u2 y3-u1
 	// y1-u1 y2-u2 y3-u3
 }
+
+// An Analyzer analyses one operating point after another without
+// allocating. Here an invented scenario: the Wood & Berry (1973) gains with
+// the steam-to-bottoms gain k22 weakening from -19.4 to -9.7, as it might
+// over an operating envelope; near -9.7 K is close to singular
+// (λ11 = 1/(1 - k12·k21/(k11·k22)), worked by hand: 2.009, 3.028, -214.07).
+func ExampleAnalyzer() {
+	k := mat.NewDense(2, 2, []float64{12.8, -18.9, 6.6, -19.4})
+	g := &interact.GainSet{
+		Outputs: []interact.Signal{{Name: "xD"}, {Name: "xB"}},
+		Inputs:  []interact.Signal{{Name: "R"}, {Name: "S"}},
+		K:       k,
+	}
+	z := interact.NewAnalyzer(&interact.Options{Brief: true, MaxPairings: -1})
+	for _, k22 := range []float64{-19.4, -14.55, -9.7} {
+		k.Set(1, 1, k22)
+		a, err := z.Analyze(g) // a is overwritten by the next call
+		if err != nil {
+			fmt.Println(err)
+			return
+		}
+		best := a.Pairings[0]
+		fmt.Printf("k22 = %6.2f: λ11 = %6.3f, best %v (%v), γ* = %.2f\n", k22, a.RGA.At(0, 0), best.Pairs, best.Verdict, a.MinCond)
+	}
+	// Output:
+	// k22 = -19.40: λ11 =  2.009, best y1-u1 y2-u2 (acceptable), γ* = 5.87
+	// k22 = -14.55: λ11 =  3.028, best y1-u1 y2-u2 (acceptable), γ* = 10.01
+	// k22 =  -9.70: λ11 = -214.069, best y1-u2 y2-u1 (caution), γ* = 858.27
+}

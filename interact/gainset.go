@@ -82,6 +82,9 @@ func (g *GainSet) scaledInto(s Scaling, k, kd *mat.Dense, fy []float64) ([]float
 	var err error
 	fy = resizeFloats(fy, len(g.Outputs))
 	for i, o := range g.Outputs {
+		if s == ScaleNone {
+			break // every factor is 1; scaleInto copies
+		}
 		if fy[i], err = scaleFactor(s, o, "output"); err != nil {
 			return fy, err
 		}

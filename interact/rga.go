@@ -44,7 +44,8 @@ func rgaDet(dst, inv *mat.Dense, k mat.Matrix) (det float64, err error) {
 func rgaDetWith(w *luWork, dst, inv *mat.Dense, k mat.Matrix) (det float64, err error) {
 	r, c := k.Dims()
 	reuseAs(dst, r, c)
-	cond, det := w.inverseDet(inv, asDense(k))
+	kk := asDense(k)
+	cond, det := w.inverseDet(inv, kk)
 	if math.IsInf(cond, 1) {
 		for i := 0; i < r; i++ {
 			for j := 0; j < c; j++ {
@@ -54,9 +55,10 @@ func rgaDetWith(w *luWork, dst, inv *mat.Dense, k mat.Matrix) (det float64, err 
 		return det, mat.Condition(cond)
 	}
 	// Λ = K ∘ (K⁻¹)ᵀ, element by element as MulElem would.
+	kd, id, dd := kk.RawMatrix(), inv.RawMatrix(), dst.RawMatrix()
 	for i := 0; i < r; i++ {
 		for j := 0; j < c; j++ {
-			dst.Set(i, j, k.At(i, j)*inv.At(j, i))
+			dd.Data[i*dd.Stride+j] = kd.Data[i*kd.Stride+j] * id.Data[j*id.Stride+i]
 		}
 	}
 	if cond > ConditionLimit {
@@ -223,6 +225,15 @@ func ElementSensitivity(rga mat.Matrix) *mat.Dense {
 
 func elementSensitivityInto(out *mat.Dense, rga mat.Matrix) {
 	r, c := rga.Dims()
+	if d, ok := rga.(*mat.Dense); ok {
+		src, dst := d.RawMatrix(), out.RawMatrix()
+		for i := 0; i < r; i++ {
+			for j, v := range src.Data[i*src.Stride : i*src.Stride+c] {
+				dst.Data[i*dst.Stride+j] = 1 / v
+			}
+		}
+		return
+	}
 	for i := 0; i < r; i++ {
 		for j := 0; j < c; j++ {
 			out.Set(i, j, 1/rga.At(i, j))

@@ -50,11 +50,11 @@ func (w *luWork) resize(n int) {
 		return
 	}
 	w.n = n
-	w.lu = make([]float64, n*n)
-	w.ipiv = make([]int, n)
-	w.work = make([]float64, 4*n)
-	w.iwork = make([]int, n)
-	w.logs = make([]float64, n)
+	w.lu = resizeFloats(w.lu, n*n)
+	w.ipiv = resizeInts(w.ipiv, n)
+	w.work = resizeFloats(w.work, 4*n)
+	w.iwork = resizeInts(w.iwork, n)
+	w.logs = resizeFloats(w.logs, n)
 }
 
 // inverseDet is the package's inverseDet (mat.LU: its condition estimate,
@@ -134,7 +134,7 @@ func inverseDet2(dst *mat.Dense, k *mat.Dense) (cond, det float64, ok bool) {
 		return 0, 0, false
 	}
 	l := a10 * (1 / a00)
-	u11 := a11 + (-1*l)*a01
+	u11 := a11 + float64((-1*l)*a01)
 	if u11 == 0 {
 		return 0, 0, false
 	}
@@ -144,15 +144,15 @@ func inverseDet2(dst *mat.Dense, k *mat.Dense) (cond, det float64, ok bool) {
 		b00, b01, b10, b11 = b10, b11, b00, b01
 	}
 	if l != 0 {
-		b10 += -l * b00
-		b11 += -l * b01
+		b10 += float64(-l * b00)
+		b11 += float64(-l * b01)
 	}
 	t := 1 / u11
 	b10 *= t
 	b11 *= t
 	if a01 != 0 {
-		b00 += -a01 * b10
-		b01 += -a01 * b11
+		b00 += float64(-a01 * b10)
+		b01 += float64(-a01 * b11)
 	}
 	t = 1 / a00
 	b00 *= t
@@ -304,6 +304,23 @@ func resizeFloats(s []float64, n int) []float64 {
 	return s[:n]
 }
 
+// hypot is math.Hypot for finite arguments, the same operations as its
+// assembly on amd64 and its Go code elsewhere (max·√(1+(min/max)²)), but
+// inlined. The products in the written-out routines are converted to
+// float64 so that no compiler fuses them into a multiply-add: the gonum
+// kernels they copy (assembly) round every operation.
+func hypot(p, q float64) float64 {
+	p, q = math.Abs(p), math.Abs(q)
+	if p < q {
+		p, q = q, p
+	}
+	if p == 0 {
+		return 0
+	}
+	q = q / p
+	return p * math.Sqrt(1+float64(q*q))
+}
+
 // dbdsqrTol is Dbdsqr's relative tolerance, computed as Dbdsqr computes it.
 var dbdsqrTol = math.Max(10, math.Min(100, math.Pow(0x1p-53, -1.0/8))) * 0x1p-53
 
@@ -315,7 +332,7 @@ func bidiag2(a00, a01, a10, a11 float64) (d0, e0, d1, v1, tau float64) {
 	v1 = a10
 	beta := a00
 	if xnorm := math.Abs(a10); xnorm != 0 {
-		beta = -math.Copysign(math.Hypot(a00, xnorm), a00)
+		beta = -math.Copysign(hypot(a00, xnorm), a00)
 		tau = (beta - a00) / beta
 		v1 = a10 * (1 / (a00 - beta))
 	}
@@ -325,12 +342,12 @@ func bidiag2(a00, a01, a10, a11 float64) (d0, e0, d1, v1, tau float64) {
 	if tau != 0 {
 		if v1 != 0 {
 			if c0 != 0 || c1 != 0 {
-				w := c0 + c1*v1
-				c0 += -tau * w
-				c1 += (-tau * v1) * w
+				w := c0 + float64(c1*v1)
+				c0 += float64(-tau * w)
+				c1 += float64((-tau * v1) * w)
 			}
 		} else if c0 != 0 {
-			c0 += -tau * c0
+			c0 += float64(-tau * c0)
 		}
 	}
 	return beta, c0, c1, v1, tau
@@ -355,9 +372,9 @@ func svd2(s, u0, u1, v0, v1 []float64, k *mat.Dense) bool {
 	q00, q01, q10, q11 := 1-tau, 0.0, 0.0, 1.0 // Dscal by -tau = 0 stores +0
 	if tau != 0 {
 		q10 = hv * (-tau)
-		w := q01 + q11*hv
-		q01 += -tau * w
-		q11 += (-tau * hv) * w
+		w := q01 + float64(q11*hv)
+		q01 += float64(-tau * w)
+		q11 += float64((-tau * hv) * w)
 	}
 	vt00, vt01, vt10, vt11 := 1.0, 0.0, 0.0, 1.0
 	// Dbdsqr, n = 2, upper.

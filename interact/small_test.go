@@ -133,3 +133,19 @@ func TestSVDWorkSameAsGonum(t *testing.T) {
 		}
 	}
 }
+
+// mulInto is Dense.Mul bit for bit on gain-matrix sizes.
+func TestMulIntoSameAsGonum(t *testing.T) {
+	rnd := rand.New(rand.NewPCG(33, 9))
+	var got mat.Dense
+	for trial := 0; trial < 5000; trial++ {
+		n, nd := 1+rnd.IntN(8), 1+rnd.IntN(4)
+		a, b := hardMatrix(rnd, n, n, trial), hardMatrix(rnd, n, nd, trial/2)
+		var want mat.Dense
+		want.Mul(a, b)
+		mulInto(&got, a, b)
+		if !sameDense(&got, &want) {
+			t.Fatalf("trial %d: %v·%v = %v, gonum %v", trial, a.RawMatrix().Data, b.RawMatrix().Data, got.RawMatrix().Data, want.RawMatrix().Data)
+		}
+	}
+}

@@ -163,18 +163,19 @@ func minCondNumeric(kd *mat.Dense, w *minWork) (gamma float64, dl, dr []float64,
 	}
 	reshape(&w.m, n, n)
 	m := &w.m
+	eb := make([]float64, n)
 	eval := func(x []float64, wantGrad bool, grad []float64) float64 {
+		eb[0] = 1
+		for j := 1; j < n; j++ {
+			eb[j] = math.Exp(x[n-1+j-1])
+		}
 		for i := 0; i < n; i++ {
 			ea := 1.0
 			if i > 0 {
 				ea = math.Exp(x[i-1])
 			}
 			for j := 0; j < n; j++ {
-				eb := 1.0
-				if j > 0 {
-					eb = math.Exp(x[n-1+j-1])
-				}
-				m.Set(i, j, ea*kd.At(i, j)*eb)
+				m.Set(i, j, ea*kd.At(i, j)*eb[j])
 			}
 		}
 		sw := &w.none
