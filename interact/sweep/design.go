@@ -154,11 +154,14 @@ func (p *Plan) grid() {
 		total *= ax.Points
 	}
 	p.Points = make([][]float64, total)
+	na := len(p.Axes)
+	flat := make([]float64, total*na) // one array behind all the points
 	for i := range p.Points {
-		idx := p.GridIndex(i)
-		pt := make([]float64, len(idx))
-		for a, k := range idx {
-			pt[a] = vals[a][k]
+		pt := flat[i*na : (i+1)*na : (i+1)*na]
+		r := i // GridIndex, without its slice
+		for a := na - 1; a >= 0; a-- {
+			pt[a] = vals[a][r%p.dims[a]]
+			r /= p.dims[a]
 		}
 		p.Points[i] = pt
 	}
@@ -171,11 +174,14 @@ func (p *Plan) grid() {
 		return
 	}
 	rest := p.dims[1:]
+	idx := make([]int, len(p.dims))
+	p.Chains = make([][]Step, 0, p.dims[0])
 	for c := 0; c < p.dims[0]; c++ {
-		var chain []Step
+		chain := make([]Step, 0, total/p.dims[0])
 		prev := -1
+		idx[0] = c
 		serpentine(rest, func(sub []int) {
-			idx := append([]int{c}, sub...)
+			copy(idx[1:], sub)
 			i := p.flat(idx)
 			chain = append(chain, Step{Point: i, Parent: prev})
 			prev = i

@@ -231,9 +231,23 @@ func solveChain(ctx context.Context, prob *Problem, wk Worker, chain []Step, don
 	return true
 }
 
+// recordBox holds a record and the values of up to four axes in one
+// allocation.
+type recordBox struct {
+	r    Record
+	vals [4]float64
+}
+
 func newRecord(prob *Problem, i int) *Record {
-	r := &Record{Index: i, Det: math.NaN(), Cond: math.NaN()}
-	r.Values = make([]float64, len(prob.Plan.Axes))
+	var r *Record
+	if na := len(prob.Plan.Axes); na <= len(recordBox{}.vals) {
+		b := &recordBox{}
+		r = &b.r
+		r.Values = b.vals[:na:na]
+	} else {
+		r = &Record{Values: make([]float64, na)}
+	}
+	r.Index, r.Det, r.Cond = i, math.NaN(), math.NaN()
 	for a, ax := range prob.Plan.Axes {
 		r.Values[a] = ax.Display(prob.Plan.Points[i][a])
 	}

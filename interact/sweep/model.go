@@ -109,7 +109,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
-	startTangent := w.tangent(nominal, State{})
+	startTangent := w.tangent(make([]float64, w.tangentSize(State{})), nominal, State{})
 	m.pivots = w.sol.Pivots()
 	if w.lu != nil {
 		m.gainsLU = new(sparse.LU)
@@ -327,17 +327,18 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	if err != nil {
 		return st, err
 	}
-	st.Tangent = w.tangent(p, from)
 	no, ni := len(w.m.outputs), len(w.m.inputs)
 	if err := w.eval.Outputs(w.y, x, p); err != nil {
 		return st, err
 	}
 	np := len(w.m.interest)
-	// One backing array for the record's numbers.
-	buf := make([]float64, no+2*no*ni+np)
+	// One backing array for the record's numbers and the state's tangent.
+	buf := make([]float64, no+2*no*ni+np+w.tangentSize(from))
 	rec.Outputs, buf = buf[:no:no], buf[no:]
 	rec.K, buf = buf[:no*ni:no*ni], buf[no*ni:]
-	rec.RGA, rec.NI = buf[:no*ni:no*ni], buf[no*ni:]
+	rec.RGA, buf = buf[:no*ni:no*ni], buf[no*ni:]
+	rec.NI, buf = buf[:np:np], buf[np:]
+	st.Tangent = w.tangent(buf, p, from)
 	for i, o := range w.m.sys.Outputs {
 		rec.Outputs[i] = o.Unit.FromSI(w.y[i])
 	}
@@ -476,16 +477,24 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 	return x
 }
 
-// tangent returns the tangent data of the state just analysed at p,
-// solved from the neighbour from (see tangentData).
-func (w *modelWorker) tangent(p []float64, from State) []float64 {
+// tangentSize is the length of the tangent data of a state solved from
+// the neighbour from.
+func (w *modelWorker) tangentSize(from State) int {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := na * (n + 1)
-	back, ok := parseTangent(from.Tangent, na, len(from.X))
-	if ok && len(from.X) == n {
+	if _, ok := parseTangent(from.Tangent, na, len(from.X)); ok && len(from.X) == n {
 		size = 2*size + n
 	}
-	t := make([]float64, size)
+	return size
+}
+
+// tangent fills t (of tangentSize(from)) with the tangent data of the state
+// just analysed at p, solved from the neighbour from (see tangentData), and
+// returns it.
+func (w *modelWorker) tangent(t, p []float64, from State) []float64 {
+	na, n := len(w.m.axes), len(w.xpred)
+	size := len(t)
+	back, _ := parseTangent(from.Tangent, na, len(from.X))
 	for a, k := range w.m.axes {
 		t[a] = p[k]
 	}
