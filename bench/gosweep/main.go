@@ -98,9 +98,9 @@ func run(which, root string, points bool) error {
 	if err != nil {
 		return err
 	}
-	var recs []sweep.Record
+	recs := make([]*sweep.Record, 0, prob.Plan.Len()) // Run makes a new record for every point
 	err = sweep.Run(ctx, prob, &sweep.Options{Workers: 1}, func(r *sweep.Record) error {
-		recs = append(recs, *r)
+		recs = append(recs, r)
 		return nil
 	})
 	elapsed := time.Since(t0).Seconds()

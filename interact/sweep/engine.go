@@ -116,7 +116,9 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	jobs := make(chan int)
-	results := make(chan *Record, 4*workers)
+	// Room for a run of records, so that one worker on one core hands them
+	// over in runs rather than one switch of goroutines per record.
+	results := make(chan *Record, 64*workers)
 	var wg sync.WaitGroup
 	for w := 0; w < workers; w++ {
 		wg.Add(1)
