@@ -60,3 +60,33 @@ func denseBench(b *testing.B, a *CSR) {
 		sinkErr = lu.SolveVecTo(x, false, x)
 	}
 }
+
+// BenchmarkSolveTridiag41: one solve with a kept factorisation.
+func BenchmarkSolveTridiag41(b *testing.B) {
+	a := fromDense(tridiag(41), nil)
+	f, err := Factorize(a, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	x, y, w := make([]float64, a.Rows), make([]float64, a.Rows), make([]float64, a.Rows)
+	for i := range x {
+		x[i] = 1
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		f.SolveWith(w, y, x)
+	}
+}
+
+// BenchmarkRefactorValuesTridiag41: a refactorisation by values alone.
+func BenchmarkRefactorValuesTridiag41(b *testing.B) {
+	a := fromDense(tridiag(41), nil)
+	f, err := Factorize(a, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = f.RefactorValues(a.Val)
+	}
+}

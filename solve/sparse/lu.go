@@ -447,38 +447,44 @@ func (f *LU) SolveMany(dst, b [][]float64, trans bool) {
 
 func (f *LU) solve(dst, b, w []float64, trans bool) {
 	n := f.n
-	if len(dst) != n || len(b) != n {
+	if len(dst) != n || len(b) != n || len(w) != n {
 		panic("sparse: solve: length mismatch")
 	}
 	if f.p == nil {
 		panic("sparse: solve with a failed factorisation")
 	}
 	if !trans {
-		// P A Q = L U: w = P b; L z = w; U y = z; x = Q y.
-		for k := range n {
-			w[k] = b[f.p[k]]
+		// P A Q = L U: w = P b; L z = w; U y = z; x = Q y. The index
+		// slices are cut to n and to each column so that the compiler
+		// can drop most bounds checks.
+		p, q, lp, up, udiag := f.p[:n], f.q[:n], f.lp[:n+1], f.up[:n+1], f.udiag[:n]
+		li, lx, ui, ux := f.li, f.lx, f.ui, f.ux
+		for k, r := range p {
+			w[k] = b[r]
 		}
 		for k := range n {
 			wk := w[k]
 			if wk == 0 {
 				continue
 			}
-			for pp := f.lp[k]; pp < f.lp[k+1]; pp++ {
-				w[f.li[pp]] -= f.lx[pp] * wk
+			rows, vals := li[lp[k]:lp[k+1]], lx[lp[k]:lp[k+1]]
+			for t, r := range rows {
+				w[r] -= vals[t] * wk
 			}
 		}
 		for k := n - 1; k >= 0; k-- {
-			w[k] /= f.udiag[k]
+			w[k] /= udiag[k]
 			wk := w[k]
 			if wk == 0 {
 				continue
 			}
-			for pp := f.up[k]; pp < f.up[k+1]; pp++ {
-				w[f.ui[pp]] -= f.ux[pp] * wk
+			rows, vals := ui[up[k]:up[k+1]], ux[up[k]:up[k+1]]
+			for t, r := range rows {
+				w[r] -= vals[t] * wk
 			}
 		}
-		for k := range n {
-			dst[f.q[k]] = w[k]
+		for k, c := range q {
+			dst[c] = w[k]
 		}
 		return
 	}
