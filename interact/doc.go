@@ -7,6 +7,10 @@
 // design note. It also computes gain matrices from a model's Jacobian by the
 // implicit-function theorem.
 //
+// Analyze screens one gain set; an Analyzer screens one after another (the
+// points of an operating-envelope sweep) with the same numbers, reusing its
+// storage so that a 2x2 analysis allocates nothing.
+//
 // Every function works on gonum mat matrices. Rows are outputs, columns are
 // inputs (or disturbances). Functions never print; bad data comes back as an
 // error value, wrong shapes (a programmer's mistake) panic.
