@@ -90,14 +90,19 @@ func TestAxisFlagErrors(t *testing.T) {
 // per-point file, the summary with verdicts and the plots; killing it
 // half-way and resuming gives the same files as an uninterrupted run.
 func TestSweepKillAndResume(t *testing.T) {
+	// Enough points that the workers cannot finish them all before the
+	// collector, stopping after 5, cancels them.
+	args := func(extra ...string) []string {
+		return append([]string{columnFile, "--axis", "zF=0.45:0.55:16", "--axis", "F=0.9 kmol/min:1.1 kmol/min:25", "-q"}, extra...)
+	}
 	for _, ext := range []string{"jsonl", "csv"} {
 		dir := t.TempDir()
 		full := filepath.Join(dir, "full."+ext)
-		stdout, err := run(t, context.Background(), columnArgs("--out", full, "--summary", filepath.Join(dir, "full.json"), "--plots", filepath.Join(dir, "plots"), "-j", "2"), nil)
+		stdout, err := run(t, context.Background(), args("--out", full, "--summary", filepath.Join(dir, "full.json"), "--plots", filepath.Join(dir, "plots"), "-j", "2"), nil)
 		if err != nil {
 			t.Fatalf("%s: %v\n%s", ext, err, stdout)
 		}
-		for _, want := range []string{"P1 yD:L xB:V", "nominal best", "12 points, 12 converged", "Steady-state screening"} {
+		for _, want := range []string{"P1 yD:L xB:V", "nominal best", "400 points, 400 converged", "Steady-state screening"} {
 			if !strings.Contains(stdout, want) {
 				t.Errorf("%s: stdout lacks %q:\n%s", ext, want, stdout)
 			}
@@ -110,7 +115,7 @@ func TestSweepKillAndResume(t *testing.T) {
 		part := filepath.Join(dir, "part."+ext)
 		ctx, cancel := context.WithCancel(context.Background())
 		n := 0
-		_, err = run(t, ctx, columnArgs("--out", part, "--summary", filepath.Join(dir, "part.json"), "-j", "2"), func() {
+		_, err = run(t, ctx, args("--out", part, "--summary", filepath.Join(dir, "part.json"), "-j", "2"), func() {
 			if n++; n == 5 {
 				cancel()
 			}
@@ -129,7 +134,10 @@ func TestSweepKillAndResume(t *testing.T) {
 		// A half-written last line, as a kill -9 during a write leaves it.
 		os.WriteFile(part, append(got, []byte("{\"i\":99,\"at\"")...), 0o644)
 
-		if out, err := run(t, context.Background(), columnArgs("--out", part, "--summary", filepath.Join(dir, "part.json"), "--resume", "-j", "1"), nil); err != nil {
+		if lines := strings.Count(string(got), "\n"); lines >= 400 {
+			t.Errorf("%s: %d lines on disk: the run was not stopped before the end", ext, lines)
+		}
+		if out, err := run(t, context.Background(), args("--out", part, "--summary", filepath.Join(dir, "part.json"), "--resume", "-j", "1"), nil); err != nil {
 			t.Fatalf("%s: resume: %v\n%s", ext, err, out)
 		}
 		for _, pair := range [][2]string{{full, part}, {filepath.Join(dir, "full.json"), filepath.Join(dir, "part.json")}} {
