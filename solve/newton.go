@@ -610,7 +610,9 @@ func (s *solver) measure(pt *part, f []float64) (norm, phi float64) {
 		if math.IsNaN(v) {
 			return math.Inf(1), math.Inf(1)
 		}
-		norm = max(norm, math.Abs(v))
+		if a := math.Abs(v); a > norm { // max without its NaN handling: v is a number
+			norm = a
+		}
 		phi += 0.5 * v * v
 	}
 	return norm, phi
@@ -623,7 +625,9 @@ func (s *solver) normOf(f []float64) float64 {
 		if math.IsNaN(v) {
 			return math.Inf(1)
 		}
-		m = max(m, v)
+		if v > m {
+			m = v
+		}
 	}
 	return m
 }

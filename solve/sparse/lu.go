@@ -47,6 +47,7 @@ type LU struct {
 	ux         []float64
 	udiag      []float64
 	anorm      float64
+	rpos       []int     // rpos[k] = pivot position of the row of CSC entry k
 	work       []float64 // scratch of refactor
 	refactored int       // numeric refactorisations that kept the pivots
 	fresh      int       // factorisations that chose pivots
@@ -89,14 +90,7 @@ func (f *LU) Refactor(a *CSR) error {
 		f.gather(a)
 		return f.factor()
 	}
-	f.gather(a)
-	if f.p != nil {
-		if err := f.refactor(); err == nil && f.p != nil {
-			f.refactored++
-			return nil
-		}
-	}
-	return f.factor()
+	return f.refactorValues(a.Val)
 }
 
 // CopyFrom makes f a copy of src (pattern, column order, pivots and
@@ -129,6 +123,7 @@ func (f *LU) CopyFrom(src *LU) {
 	f.lp, f.li, f.lx = cpInts(f.lp, src.lp), cpInts(f.li, src.li), cpFloats(f.lx, src.lx)
 	f.up, f.ui, f.ux = cpInts(f.up, src.up), cpInts(f.ui, src.ui), cpFloats(f.ux, src.ux)
 	f.udiag = cpFloats(f.udiag, src.udiag)
+	f.rpos = cpInts(f.rpos, src.rpos)
 	f.anorm = src.anorm
 	f.refactored, f.fresh = 0, 0
 }
@@ -141,14 +136,20 @@ func (f *LU) RefactorValues(val []float64) error {
 	if f.rowPtr == nil || len(val) < len(f.colIdx) {
 		panic("sparse: RefactorValues: no pattern analysed, or too few values")
 	}
-	a := CSR{Rows: f.n, Cols: f.n, RowPtr: f.rowPtr, ColIdx: f.colIdx, Val: val}
-	f.gather(&a)
-	if f.p != nil {
-		if err := f.refactor(); err == nil && f.p != nil {
+	return f.refactorValues(val)
+}
+
+// refactorValues refactors with the kept pivots when there are some and
+// they pass, reading the values straight from the CSR values val; else it
+// gathers them and factors afresh.
+func (f *LU) refactorValues(val []float64) error {
+	if f.p != nil && len(f.rpos) == len(f.ri) {
+		if err := f.refactor(val); err == nil {
 			f.refactored++
 			return nil
 		}
 	}
+	f.gather(&CSR{Rows: f.n, Cols: f.n, RowPtr: f.rowPtr, ColIdx: f.colIdx, Val: val})
 	return f.factor()
 }
 
@@ -341,21 +342,29 @@ func (f *LU) eliminate() error {
 	for pp, r := range f.li {
 		f.li[pp] = f.pinv[r]
 	}
+	f.rpos = f.rpos[:0]
+	for _, r := range f.ri {
+		f.rpos = append(f.rpos, f.pinv[r])
+	}
 	return nil
 }
 
 // refactor repeats the elimination with the pivots and patterns of the last
 // factorisation, working in pivot positions. It fails when a kept pivot is
 // no longer acceptable.
-func (f *LU) refactor() error {
+func (f *LU) refactor(val []float64) error {
 	n := f.n
 	if len(f.work) != n {
 		f.work = make([]float64, n)
 	}
 	x := f.work
 	// One pass of column k; the index slices are resliced to their exact
-	// lengths so that the compiler drops most bounds checks.
+	// lengths so that the compiler drops most bounds checks. The values are
+	// gathered into cval on the way (for a fresh factorisation, should a
+	// pivot fail) and ||A||₁ taken as gather takes it.
 	ui, li, ux, lx := f.ui, f.li, f.ux, f.lx
+	cp, csrPos, rpos, cval := f.cp, f.csrPos, f.rpos, f.cval
+	anorm := 0.0
 	for k := range n {
 		col := f.q[k]
 		u0, u1, l0, l1 := f.up[k], f.up[k+1], f.lp[k], f.lp[k+1]
@@ -367,12 +376,17 @@ func (f *LU) refactor() error {
 			x[j] = 0
 		}
 		x[k] = 0
-		scale := 0.0
-		rows, vals := f.ri[f.cp[col]:f.cp[col+1]], f.cval[f.cp[col]:f.cp[col+1]]
-		for t, r := range rows {
-			v := vals[t]
-			x[f.pinv[r]] = v
+		scale, sum := 0.0, 0.0
+		c0, c1 := cp[col], cp[col+1]
+		for pc, src := range csrPos[c0:c1] {
+			v := val[src]
+			cval[c0+pc] = v
+			x[rpos[c0+pc]] = v
 			scale = maxAbs(scale, v)
+			sum += math.Abs(v)
+		}
+		if sum > anorm || math.IsNaN(sum) {
+			anorm = sum
 		}
 		uk := ux[u0:u1]
 		for t, j := range uRows {
@@ -399,6 +413,7 @@ func (f *LU) refactor() error {
 			lk[t] = x[j] / pivot
 		}
 	}
+	f.anorm = anorm
 	return nil
 }
 
