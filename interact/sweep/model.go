@@ -581,8 +581,17 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 func systemID(sys *model.System) string {
 	h := sha256.New()
 	var b strings.Builder
+	num := func(v float64) { // as %v prints it
+		b.WriteByte(' ')
+		b.WriteString(strconv.FormatFloat(v, 'g', -1, 64))
+	}
 	sym := func(kind string, s model.Symbol) {
-		fmt.Fprintf(&b, "%s %s %d %v %v %v %v %s\n", kind, s.Name, s.Role, s.Value, s.Min, s.Max, s.Span, s.Unit.Text)
+		b.WriteString(kind + " " + s.Name + " " + strconv.Itoa(int(s.Role)))
+		num(s.Value)
+		num(s.Min)
+		num(s.Max)
+		num(s.Span)
+		b.WriteString(" " + s.Unit.Text + "\n")
 	}
 	for _, s := range sys.Unknowns {
 		sym("x", s)
@@ -611,7 +620,7 @@ func systemID(sys *model.System) string {
 // the text linear in the size of the expanded model.
 func writeNode(b *strings.Builder, n model.Node, seen map[model.Node]int) {
 	if k, ok := seen[n]; ok {
-		fmt.Fprintf(b, "#%d", k)
+		b.WriteString("#" + strconv.Itoa(k))
 		return
 	}
 	switch n.(type) {
@@ -622,9 +631,9 @@ func writeNode(b *strings.Builder, n model.Node, seen map[model.Node]int) {
 	case *model.Const:
 		b.WriteString(strconv.FormatFloat(n.Value, 'g', -1, 64))
 	case *model.Var:
-		fmt.Fprintf(b, "x%d", n.Index)
+		b.WriteString("x" + strconv.Itoa(n.Index))
 	case *model.Param:
-		fmt.Fprintf(b, "p%d", n.Index)
+		b.WriteString("p" + strconv.Itoa(n.Index))
 	case *model.Neg:
 		b.WriteString("(-")
 		writeNode(b, n.X, seen)
