@@ -32,11 +32,19 @@ type State struct {
 	// Tangent is the worker's own data for predicting nearby points (the
 	// sensitivities of X to the axes, say); nil when it has none.
 	Tangent []float64
-	// Nominal marks the sweep's nominal state, where every chain begins.
-	// Starting from it, a worker forgets whatever it kept from the points
-	// it solved before (pivot orders, say), so that a chain's records do
-	// not depend on which chains the same worker solved earlier.
-	Nominal bool
+	// ChainStart marks a state a chain begins from (the nominal state, or a
+	// chain's head solved beforehand). Starting from it, a worker forgets
+	// whatever it kept from the points it solved before (pivot orders,
+	// say), so that a chain's records do not depend on which chains the
+	// same worker solved earlier.
+	ChainStart bool
+}
+
+// Head is a chain's first point solved before the run: its record, and
+// the state the chain continues from (nil X when it did not converge).
+type Head struct {
+	Record *Record
+	State  State
 }
 
 // Problem is a sweep ready to run.
@@ -52,6 +60,10 @@ type Problem struct {
 	// StartTangent is the worker's tangent data at Start (State.Tangent);
 	// may be nil.
 	StartTangent []float64
+	// Heads, when not nil, holds for each chain its first point solved
+	// beforehand (nil entries are solved by Run): Run emits its record as
+	// it is and continues the chain from its state.
+	Heads []*Head
 	// NewWorker returns a Worker for one goroutine.
 	NewWorker func() Worker
 }
@@ -126,7 +138,7 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 			defer wg.Done()
 			wk := prob.NewWorker()
 			for c := range jobs {
-				if !solveChain(ctx, prob, wk, plan.Chains[c], opts.Done, results) {
+				if !solveChain(ctx, prob, wk, c, opts.Done, results) {
 					return
 				}
 			}
@@ -186,51 +198,76 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 	return nil
 }
 
-// solveChain solves one chain in order and sends the records of points not
+// solveChain solves chain c in order and sends the records of points not
 // yet done. It returns false when the context was cancelled.
-func solveChain(ctx context.Context, prob *Problem, wk Worker, chain []Step, done map[int]bool, out chan<- *Record) bool {
+func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[int]bool, out chan<- *Record) bool {
+	chain := prob.Plan.Chains[c]
 	p := append([]float64(nil), prob.Nominal...)
-	start := State{X: prob.Start, Tangent: prob.StartTangent, Nominal: true}
+	start := State{X: prob.Start, Tangent: prob.StartTangent, ChainStart: true}
 	states := make(map[int]State, len(chain))
 	for _, s := range chain {
 		if ctx.Err() != nil {
 			return false
 		}
-		from, ok := states[s.Parent]
-		if !ok {
-			from = start
+		var rec *Record
+		if h := prob.head(c); h != nil && s.Parent < 0 && h.Record.Index == s.Point {
+			rec = h.Record.clone()
+			if h.State.X != nil {
+				states[s.Point] = h.State
+			}
+		} else {
+			from, ok := states[s.Parent]
+			if !ok {
+				from = start
+			}
+			vals := prob.Plan.Points[s.Point]
+			for a, ax := range prob.Plan.Axes {
+				p[ax.Param] = vals[a]
+			}
+			var st State
+			rec, st = solvePoint(ctx, prob, wk, p, s.Point, from, !ok)
+			if ctx.Err() != nil {
+				return false // the point may be half done: leave it to a resume
+			}
+			if st.X != nil {
+				states[s.Point] = st
+			}
 		}
-		vals := prob.Plan.Points[s.Point]
-		for a, ax := range prob.Plan.Axes {
-			p[ax.Param] = vals[a]
-		}
-		rec := newRecord(prob, s.Point)
-		st, err := wk.Point(ctx, p, from, rec)
-		if st.X == nil && err != nil && !from.Nominal && ctx.Err() == nil {
-			// Continuation failed: try once more from the nominal state.
-			rec = newRecord(prob, s.Point)
-			st, err = wk.Point(ctx, p, start, rec)
-		}
-		if ctx.Err() != nil {
-			return false // the point may be half done: leave it to a resume
-		}
-		rec.Converged = st.X != nil
-		if err != nil {
-			rec.Reason = err.Error()
-		} else if st.X == nil {
-			rec.Reason = "no solution"
-		}
-		if st.X != nil {
-			st.Nominal = false
-			states[s.Point] = st
-		}
-		rec.normalize()
 		if done[s.Point] {
 			continue
 		}
 		out <- rec // the collector drains until every worker is done
 	}
 	return true
+}
+
+// solvePoint solves point i at parameters p from the state from (the
+// nominal start when fromStart) and returns its record, normalized, and
+// the converged state (nil X when it did not converge). A continuation that
+// fails is tried once more from the nominal state.
+func solvePoint(ctx context.Context, prob *Problem, wk Worker, p []float64, i int, from State, fromStart bool) (*Record, State) {
+	rec := newRecord(prob, i)
+	st, err := wk.Point(ctx, p, from, rec)
+	if st.X == nil && err != nil && !fromStart && ctx.Err() == nil {
+		rec = newRecord(prob, i)
+		st, err = wk.Point(ctx, p, State{X: prob.Start, Tangent: prob.StartTangent, ChainStart: true}, rec)
+	}
+	rec.Converged = st.X != nil
+	if err != nil {
+		rec.Reason = err.Error()
+	} else if st.X == nil {
+		rec.Reason = "no solution"
+	}
+	st.ChainStart = false
+	rec.normalize()
+	return rec, st
+}
+
+func (prob *Problem) head(c int) *Head {
+	if c < len(prob.Heads) {
+		return prob.Heads[c]
+	}
+	return nil
 }
 
 // recordBox holds a record and the values of up to four axes in one

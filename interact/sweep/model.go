@@ -148,8 +148,80 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 		m.pairNames = append(m.pairNames, p.Name)
 	}
 	h.Seal(opts.ModelID + "\x00" + systemID(sys))
-	return &Problem{Header: h, Plan: plan, Nominal: nominal, Start: start, StartTangent: startTangent,
-		NewWorker: func() Worker { return m.newWorker() }}, nil
+	prob := &Problem{Header: h, Plan: plan, Nominal: nominal, Start: start, StartTangent: startTangent,
+		NewWorker: func() Worker { return m.newWorker() }}
+	if err := solveHeads(ctx, prob, w); err != nil {
+		return nil, err
+	}
+	return prob, nil
+}
+
+// solveHeads solves the first point of every chain of a grid with two or
+// more axes before the chains run, by continuation along the first axis
+// from the chain nearest the nominal point outwards, and stores them as the
+// problem's Heads. On a grid the chains' first points lie on one line, so
+// this walk takes one or two Newton iterations a point, where starting each
+// chain from the nominal state takes five or six. It is done once, in order,
+// by one worker: the heads, and so the records, do not depend on -j or on
+// the shard.
+func solveHeads(ctx context.Context, prob *Problem, w Worker) error {
+	plan := prob.Plan
+	if plan.Design.Kind != Grid || len(plan.Axes) < 2 || len(plan.Chains) < 2 {
+		return nil
+	}
+	heads := make([]*Head, len(plan.Chains))
+	first := func(c int) int { return plan.Chains[c][0].Point }
+	near, best := 0, math.Inf(1)
+	for c := range plan.Chains {
+		if d := math.Abs(plan.Points[first(c)][0] - plan.Axes[0].Nominal); d < best {
+			near, best = c, d
+		}
+	}
+	p := slices.Clone(prob.Nominal)
+	start := State{X: prob.Start, Tangent: prob.StartTangent, ChainStart: true}
+	walk := func(cs []int, from State) {
+		fromStart := from.X == nil
+		if fromStart {
+			from = start
+		}
+		for _, c := range cs {
+			if ctx.Err() != nil {
+				return
+			}
+			i := first(c)
+			for a, ax := range plan.Axes {
+				p[ax.Param] = plan.Points[i][a]
+			}
+			rec, st := solvePoint(ctx, prob, w, p, i, from, fromStart)
+			h := &Head{Record: rec}
+			if st.X != nil {
+				h.State = st
+				h.State.ChainStart = true // each chain's worker starts afresh
+				from, fromStart = st, false
+			}
+			heads[c] = h
+		}
+	}
+	var up, down []int
+	for c := near; c < len(plan.Chains); c++ {
+		up = append(up, c)
+	}
+	for c := near - 1; c >= 0; c-- {
+		down = append(down, c)
+	}
+	walk(up, State{})
+	if h := heads[near]; h != nil && h.State.X != nil {
+		back := h.State
+		back.ChainStart = false
+		walk(down, back)
+	} else {
+		walk(down, State{})
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	prob.Heads = heads
+	return nil
 }
 
 // bestOf is the best-ranked pairing that is not rejected (it may carry
@@ -276,7 +348,7 @@ func (m *modelRun) newWorker() *modelWorker {
 // full strategy (blocks, homotopy), as from any guess.
 func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
 	w.p = p
-	if from.Nominal {
+	if from.ChainStart {
 		// A new chain: keep nothing from other chains' points; start from
 		// the nominal point's pivots, as every chain does.
 		w.sol.UsePivots(w.m.pivots)

@@ -6,6 +6,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 )
 
@@ -106,6 +107,14 @@ func (r *Record) Lambda(h *Header, pr Pairing, i int) float64 {
 		return math.NaN()
 	}
 	return r.RGA[i*len(h.Inputs)+j]
+}
+
+// clone returns a copy of the record that shares nothing with it.
+func (r *Record) clone() *Record {
+	c := *r
+	c.Values, c.Outputs, c.K, c.RGA = slices.Clone(r.Values), slices.Clone(r.Outputs), slices.Clone(r.K), slices.Clone(r.RGA)
+	c.NI, c.Pass = slices.Clone(r.NI), slices.Clone(r.Pass)
+	return &c
 }
 
 // normalize makes the record's shape a function of its content, so that a
