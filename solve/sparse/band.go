@@ -40,13 +40,14 @@ type bandLU struct {
 	ab           []float64 // the band, ldab rows by n columns
 	ipiv         []int     // at step j row j was swapped with row ipiv[j]
 	rdiag        []float64 // reciprocals of U's diagonal
-	// The entries of B by columns: column j's are src[cp[j]:cp[j+1]]
-	// (indices into the CSR values), to be put at dst[cp[j]:cp[j+1]] in
-	// ab.
-	cp, src, dst []int
+	bpos         []int     // bpos[p]: the place in ab of the CSR entry p
 	prow         []int     // prow[k]: the caller's row at position k
-	cscale       []float64 // largest |entry| of each column of B, as given
-	ok           bool      // factors ready for solving
+	// The values as given, and B's column j as indices into them,
+	// src[cp[j]:cp[j+1]]: for ||A||₁ and for the exact singularity test.
+	vals    []float64
+	cp, src []int
+	gmax    float64 // largest |entry| of A (NaN when there is a NaN)
+	ok      bool    // factors ready for solving
 }
 
 // chooseBand works out the bandwidths of the matrix in the band order and,
@@ -117,20 +118,20 @@ func (f *LU) chooseBand(a *CSR) bool {
 	}
 	next := slices.Clone(b.cp[:n])
 	b.src = slices.Grow(b.src[:0], nnz)[:nnz]
-	b.dst = slices.Grow(b.dst[:0], nnz)[:nnz]
+	b.bpos = slices.Grow(b.bpos[:0], nnz)[:nnz]
 	for i := range n {
 		ri := rowpos[i]
 		for p := a.RowPtr[i]; p < a.RowPtr[i+1]; p++ {
 			cj := colpos[a.ColIdx[p]]
 			b.src[next[cj]] = p
-			b.dst[next[cj]] = cj*ldab + kv + ri - cj
 			next[cj]++
+			b.bpos[p] = cj*ldab + kv + ri - cj
 		}
 	}
+	b.vals = slices.Grow(b.vals[:0], nnz)[:nnz]
 	b.ab = slices.Grow(b.ab[:0], n*ldab)[:n*ldab]
 	b.ipiv = slices.Grow(b.ipiv[:0], n)[:n]
 	b.rdiag = slices.Grow(b.rdiag[:0], n)[:n]
-	b.cscale = slices.Grow(b.cscale[:0], n)[:n]
 	b.ok = false
 	f.banded = true
 	return true
@@ -197,32 +198,25 @@ func (f *LU) bandFactor(val []float64) error {
 	kv := kl + ku
 	ab := b.ab[:n*ldab]
 	clear(ab)
-	// Scatter column by column, taking the column scales for the
-	// singularity test and ||A||₁ on the way. A NaN makes its column's
-	// sum, and so its scale, NaN, which fails every pivot test.
-	cs, cp, src, dst := b.cscale[:n], b.cp[:n+1], b.src, b.dst[:len(b.src)]
-	anorm := 0.0
-	for j := range cs {
-		m, s := 0.0, 0.0
-		k0, k1 := cp[j], cp[j+1]
-		for k, p := range src[k0:k1] {
-			v := val[p]
-			ab[dst[k0+k]] = v
-			a := math.Abs(v)
-			if a > m {
-				m = a
-			}
-			s += a
-		}
-		if s != s {
-			m = s
-		}
-		cs[j] = m
-		if s > anorm || s != s {
-			anorm = s
+	// Scatter, taking the largest magnitude for the singularity test's
+	// quick bound on the way; a NaN makes the bound NaN.
+	bpos := b.bpos
+	val = val[:len(bpos)]
+	g, nan := 0.0, false
+	for p, pos := range bpos {
+		v := val[p]
+		ab[pos] = v
+		if a := math.Abs(v); a > g {
+			g = a
+		} else if a != a {
+			nan = true
 		}
 	}
-	f.anorm = anorm
+	if nan {
+		g = math.NaN()
+	}
+	b.gmax = g
+	copy(b.vals, val)
 
 	if kl == 1 {
 		if err := b.eliminate1(n, f.q); err != nil {
@@ -232,7 +226,8 @@ func (f *LU) bandFactor(val []float64) error {
 		return nil
 	}
 	ipiv, rdiag := b.ipiv[:n], b.rdiag[:n]
-	ju := 0 // the last column U reaches so far
+	ju := 0       // the last column U reaches so far
+	ubound := 0.0 // largest |entry| of U so far
 	for j := range n {
 		km := min(kl, n-1-j)
 		d := j*ldab + kv // B(j,j)
@@ -246,14 +241,7 @@ func (f *LU) bandFactor(val []float64) error {
 		if amax == 0 {
 			return &SingularError{Col: f.q[j], Row: -1}
 		}
-		scale := cs[j]
-		for _, v := range ab[d-min(j, kv) : d] {
-			if a := math.Abs(v); a > scale {
-				scale = a
-			}
-		}
-		// amax > 0 here, so it passes when it is the largest; NaN fails.
-		if !(amax > tiny*scale) || amax > math.MaxFloat64 {
+		if lim := max(b.gmax, ubound); !(amax > tiny*lim && amax <= math.MaxFloat64) && !b.pivotOK(j, amax, ab[d-min(j, kv):d]) {
 			return &SingularError{Col: f.q[j], Row: b.rowAt(j, j+jp)}
 		}
 		pivot := cand[jp]
@@ -279,6 +267,9 @@ func (f *LU) bandFactor(val []float64) error {
 		for c := j + 1; c <= ju; c++ {
 			base := c*(ldab-1) + kv + j // B(j,c)
 			t := ab[base]
+			if a := math.Abs(t); a > ubound {
+				ubound = a
+			}
 			dst := ab[base+1 : base+1+km]
 			for i, v := range l {
 				dst[i] -= v * t
@@ -299,8 +290,9 @@ func (b *bandLU) eliminate1(n int, q []int) error {
 	ldab, ku := b.ldab, b.ku
 	kv := 1 + ku
 	ab := b.ab[:n*ldab]
-	ipiv, rdiag, cs := b.ipiv[:n], b.rdiag[:n], b.cscale[:n]
+	ipiv, rdiag := b.ipiv[:n], b.rdiag[:n]
 	ju := 0
+	ubound := 0.0  // largest |entry| of U so far
 	diag := ab[kv] // B(j,j) as updated so far
 	for j := range n {
 		d := j*ldab + kv
@@ -315,13 +307,7 @@ func (b *bandLU) eliminate1(n int, q []int) error {
 		if amax == 0 {
 			return &SingularError{Col: q[j], Row: -1}
 		}
-		scale := cs[j]
-		for _, v := range ab[d-min(j, kv) : d] {
-			if a := math.Abs(v); a > scale {
-				scale = a
-			}
-		}
-		if !(amax > tiny*scale) || amax > math.MaxFloat64 {
+		if lim := max(b.gmax, ubound); !(amax > tiny*lim && amax <= math.MaxFloat64) && !b.pivotOK(j, amax, ab[d-min(j, kv):d]) {
 			return &SingularError{Col: q[j], Row: b.rowAt(j, j+jp)}
 		}
 		ipiv[j] = j + jp
@@ -343,21 +329,66 @@ func (b *bandLU) eliminate1(n int, q []int) error {
 		}
 		ab[e] = u
 		diag = a - other*u/pivot
+		if au := math.Abs(u); au > ubound {
+			ubound = au
+		}
 		if jp != 0 {
 			for c := j + 2; c <= ju; c++ {
 				base := c*(ldab-1) + kv + j // B(j,c)
 				t := ab[base+1]
 				ab[base+1] = ab[base] - l*t
 				ab[base] = t
+				if at := math.Abs(t); at > ubound {
+					ubound = at
+				}
 			}
 			continue
 		}
 		for c := j + 2; c <= ju; c++ {
 			base := c*(ldab-1) + kv + j
-			ab[base+1] -= l * ab[base]
+			t := ab[base]
+			ab[base+1] -= l * t
+			if at := math.Abs(t); at > ubound {
+				ubound = at
+			}
 		}
 	}
 	return nil
+}
+
+// pivotOK is the singularity test of the pivot of column j, of magnitude
+// amax > 0: the pivot must be finite and above tiny times the largest
+// magnitude of its column, as given or in U (ucol). The eliminations test
+// first against a bound of that, the largest entry of A and of U so far,
+// which settles almost every pivot; pivotOK looks at the column itself, for
+// a pivot that fails the bound (or when there is a NaN).
+func (b *bandLU) pivotOK(j int, amax float64, ucol []float64) bool {
+	if amax > math.MaxFloat64 {
+		return false
+	}
+	scale := 0.0
+	for _, v := range ucol {
+		scale = maxAbs(scale, v)
+	}
+	for _, p := range b.src[b.cp[j]:b.cp[j+1]] {
+		scale = maxAbs(scale, b.vals[p])
+	}
+	return amax > tiny*scale
+}
+
+// norm1 is ||A||₁ from the values as given.
+func (b *bandLU) norm1() float64 {
+	m := 0.0
+	for j := range len(b.cp) - 1 {
+		s := 0.0
+		for _, p := range b.src[b.cp[j]:b.cp[j+1]] {
+			s += math.Abs(b.vals[p])
+		}
+		if s > m || s != s {
+			m = s
+		}
+	}
+	return m
 }
 
 // rowAt returns the caller's row at position k after the interchanges of
@@ -511,9 +542,10 @@ func (b *bandLU) copyFrom(src *bandLU) {
 	b.ab = append(b.ab[:0], src.ab...)
 	b.ipiv = append(b.ipiv[:0], src.ipiv...)
 	b.rdiag = append(b.rdiag[:0], src.rdiag...)
+	b.bpos = append(b.bpos[:0], src.bpos...)
 	b.cp = append(b.cp[:0], src.cp...)
 	b.src = append(b.src[:0], src.src...)
-	b.dst = append(b.dst[:0], src.dst...)
+	b.vals = append(b.vals[:0], src.vals...)
+	b.gmax = src.gmax
 	b.prow = append(b.prow[:0], src.prow...)
-	b.cscale = append(b.cscale[:0], src.cscale...)
 }

@@ -574,7 +574,11 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 // matrix", ACM TOMS 14(4), 1988): a few solves with A and Aᵀ, never the
 // inverse. The estimate is a lower bound, usually within a factor of 3.
 func (f *LU) Cond1() float64 {
-	return f.anorm * f.InvNorm1()
+	anorm := f.anorm
+	if f.banded {
+		anorm = f.bd.norm1()
+	}
+	return anorm * f.InvNorm1()
 }
 
 // InvNorm1 estimates ‖A⁻¹‖₁ (see Cond1).
