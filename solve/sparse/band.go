@@ -18,7 +18,7 @@ const bandMinN = 8
 // bandSlack is the constant of the band rule: band mode is taken when
 // (2kl+ku+1)·n ≤ bandRatio·nnz(A) + bandSlack.
 const (
-	bandRatio = 3
+	bandRatio = 4
 	bandSlack = 64
 )
 
@@ -270,9 +270,18 @@ func (f *LU) bandFactor(val []float64) error {
 			if a := math.Abs(t); a > ubound {
 				ubound = a
 			}
-			dst := ab[base+1 : base+1+km]
-			for i, v := range l {
-				dst[i] -= v * t
+			dst := ab[base+1 : base+1+len(l)]
+			dst = dst[:len(l)] // lets the compiler drop the bounds checks
+			i := 0
+			for ; i+4 <= len(l); i += 4 {
+				d4, l4 := dst[i:i+4:i+4], l[i:i+4:i+4]
+				d4[0] -= l4[0] * t
+				d4[1] -= l4[1] * t
+				d4[2] -= l4[2] * t
+				d4[3] -= l4[3] * t
+			}
+			for ; i < len(l); i++ {
+				dst[i] -= l[i] * t
 			}
 		}
 	}
