@@ -18,7 +18,15 @@ func BenchmarkDenseLUTridiag41(b *testing.B)   { denseBench(b, fromDense(tridiag
 
 func BenchmarkFactorizeBlockTridiag200x4(b *testing.B) { factorBench(b, blockTridiag200x4()) }
 func BenchmarkRefactorBlockTridiag200x4(b *testing.B)  { refactorBench(b, blockTridiag200x4()) }
-func BenchmarkDenseLUBlockTridiag200x4(b *testing.B)   { denseBench(b, blockTridiag200x4()) }
+
+// The sparse mode on the same matrices, for the band rule.
+func BenchmarkRefactorSparseTridiag41(b *testing.B) {
+	refactorBenchOpts(b, fromDense(tridiag(41), nil), &Options{sparseOnly: true})
+}
+func BenchmarkRefactorSparseBlockTridiag200x4(b *testing.B) {
+	refactorBenchOpts(b, blockTridiag200x4(), &Options{sparseOnly: true})
+}
+func BenchmarkDenseLUBlockTridiag200x4(b *testing.B) { denseBench(b, blockTridiag200x4()) }
 
 func blockTridiag200x4() *CSR {
 	return fromDense(blockTridiag(rand.New(rand.NewPCG(1, 1)), 200, 4), nil)
@@ -35,8 +43,10 @@ func factorBench(b *testing.B, a *CSR) {
 }
 
 // refactorBench: a Newton iteration's work, same pattern, kept pivots, one solve.
-func refactorBench(b *testing.B, a *CSR) {
-	f, err := Factorize(a, nil)
+func refactorBench(b *testing.B, a *CSR) { refactorBenchOpts(b, a, nil) }
+
+func refactorBenchOpts(b *testing.B, a *CSR, opts *Options) {
+	f, err := Factorize(a, opts)
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -88,5 +98,27 @@ func BenchmarkRefactorValuesTridiag41(b *testing.B) {
 	b.ReportAllocs()
 	for b.Loop() {
 		sinkErr = f.RefactorValues(a.Val)
+	}
+}
+
+// BenchmarkStepTridiag41: a Newton step's linear algebra as the sweep does
+// it, RefactorValues then SolveWith; in sparse mode for comparison.
+func BenchmarkStepTridiag41(b *testing.B)       { stepBench(b, nil) }
+func BenchmarkStepSparseTridiag41(b *testing.B) { stepBench(b, &Options{sparseOnly: true}) }
+
+func stepBench(b *testing.B, opts *Options) {
+	a := fromDense(tridiag(41), nil)
+	f, err := Factorize(a, opts)
+	if err != nil {
+		b.Fatal(err)
+	}
+	x, y, w := make([]float64, a.Rows), make([]float64, a.Rows), make([]float64, a.Rows)
+	for i := range x {
+		x[i] = 1
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = f.RefactorValues(a.Val)
+		f.SolveWith(w, y, x)
 	}
 }

@@ -15,6 +15,10 @@ type Options struct {
 	Tau float64
 	// Order is the column ordering; the zero value is RCM.
 	Order Ordering
+
+	// sparseOnly keeps the factorisation in sparse mode whatever the
+	// band (for tests and benchmarks of the sparse mode).
+	sparseOnly bool
 }
 
 func (o *Options) tau() float64 {
@@ -51,6 +55,12 @@ type LU struct {
 	work       []float64 // scratch of refactor
 	refactored int       // numeric refactorisations that kept the pivots
 	fresh      int       // factorisations that chose pivots
+
+	// Band mode (band.go): when banded, bd holds the factors and the
+	// sparse symbolic and numeric fields above are unused.
+	banded bool
+	noBand bool // Options.sparseOnly
+	bd     bandLU
 }
 
 var errPivot = errors.New("sparse: kept pivot failed the threshold")
@@ -67,8 +77,12 @@ func Factorize(a *CSR, opts *Options) (*LU, error) {
 	f := &LU{n: a.Rows, tau: opts.tau()}
 	if opts != nil {
 		f.how = opts.Order
+		f.noBand = opts.sparseOnly
 	}
 	f.analyze(a)
+	if f.banded {
+		return f, f.bandFactor(a.Val)
+	}
 	f.gather(a)
 	return f, f.factor()
 }
@@ -87,6 +101,9 @@ func (f *LU) Refactor(a *CSR) error {
 	if a.Rows != f.n || !slices.Equal(a.RowPtr, f.rowPtr) || !slices.Equal(a.ColIdx[:a.RowPtr[a.Rows]], f.colIdx) {
 		f.n = a.Rows
 		f.analyze(a)
+		if f.banded {
+			return f.bandFactor(a.Val)
+		}
 		f.gather(a)
 		return f.factor()
 	}
@@ -114,7 +131,7 @@ func (f *LU) CopyFrom(src *LU) {
 		}
 		return append(dst[:0], s...)
 	}
-	f.n, f.tau, f.how = src.n, src.tau, src.how
+	f.n, f.tau, f.how, f.noBand = src.n, src.tau, src.how, src.noBand
 	f.rowPtr, f.colIdx = cpInts(f.rowPtr, src.rowPtr), cpInts(f.colIdx, src.colIdx)
 	f.cp, f.ri, f.csrPos = cpInts(f.cp, src.cp), cpInts(f.ri, src.ri), cpInts(f.csrPos, src.csrPos)
 	f.cval = cpFloats(f.cval, src.cval)
@@ -126,6 +143,12 @@ func (f *LU) CopyFrom(src *LU) {
 	f.rpos = cpInts(f.rpos, src.rpos)
 	f.anorm = src.anorm
 	f.refactored, f.fresh = 0, 0
+	f.banded = src.banded
+	if src.banded {
+		f.bd.copyFrom(&src.bd)
+	} else {
+		f.bd.ok = false
+	}
 }
 
 // RefactorValues is Refactor for a matrix with the pattern f was last
@@ -143,6 +166,9 @@ func (f *LU) RefactorValues(val []float64) error {
 // they pass, reading the values straight from the CSR values val; else it
 // gathers them and factors afresh.
 func (f *LU) refactorValues(val []float64) error {
+	if f.banded {
+		return f.bandFactor(val)
+	}
 	if f.p != nil && len(f.rpos) == len(f.ri) {
 		if err := f.refactor(val); err == nil {
 			f.refactored++
@@ -155,17 +181,31 @@ func (f *LU) refactorValues(val []float64) error {
 
 // Stats reports the number of entries in L and U (diagonal included in U),
 // and how many factorisations chose new pivots (fresh) or kept the previous
-// ones (kept).
+// ones (kept). In band mode the entries are those of the stored band (L's
+// multipliers, U's kl+ku superdiagonals and diagonal, zeros included) and
+// every factorisation is fresh.
 func (f *LU) Stats() (nnzL, nnzU, fresh, kept int) {
+	if f.banded {
+		nnzL, nnzU = f.bandStats()
+		return nnzL, nnzU, f.fresh, f.refactored
+	}
 	return len(f.li), len(f.ui) + f.n, f.fresh, f.refactored
 }
 
-// analyze builds the CSC copy of the pattern and the column order.
+// analyze finds the column order, decides between band and sparse mode
+// and, for the sparse mode, builds the CSC copy of the pattern.
 func (f *LU) analyze(a *CSR) {
 	n := a.Rows
 	nnz := a.RowPtr[n]
 	f.rowPtr = slices.Clone(a.RowPtr)
 	f.colIdx = slices.Clone(a.ColIdx[:nnz])
+	f.q, f.pref = order(a, f.how)
+	f.p = nil
+	if f.chooseBand(a) {
+		f.cp, f.ri, f.csrPos, f.cval, f.rpos = nil, nil, nil, nil, nil
+		f.lp, f.li, f.lx, f.up, f.ui, f.ux, f.udiag = nil, nil, nil, nil, nil, nil, nil
+		return
+	}
 	f.cp = make([]int, n+1)
 	for _, j := range f.colIdx {
 		f.cp[j+1]++
@@ -185,8 +225,6 @@ func (f *LU) analyze(a *CSR) {
 		}
 	}
 	f.cval = make([]float64, nnz)
-	f.q, f.pref = order(a, f.how)
-	f.p = nil
 }
 
 // gather copies the values of a into the CSC order and computes ||A||₁.
@@ -465,6 +503,10 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 	if len(dst) != n || len(b) != n || len(w) != n {
 		panic("sparse: solve: length mismatch")
 	}
+	if f.banded {
+		f.bandSolve(dst, b, w, trans)
+		return
+	}
 	if f.p == nil {
 		panic("sparse: solve with a failed factorisation")
 	}
@@ -532,7 +574,11 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 // matrix", ACM TOMS 14(4), 1988): a few solves with A and Aᵀ, never the
 // inverse. The estimate is a lower bound, usually within a factor of 3.
 func (f *LU) Cond1() float64 {
-	return f.anorm * f.InvNorm1()
+	anorm := f.anorm
+	if f.banded {
+		anorm = f.bd.norm1()
+	}
+	return anorm * f.InvNorm1()
 }
 
 // InvNorm1 estimates ‖A⁻¹‖₁ (see Cond1).

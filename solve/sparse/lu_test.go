@@ -95,6 +95,26 @@ func blockTridiag(rnd *rand.Rand, nb, bs int) [][]float64 {
 	return d
 }
 
+// withBorder adds a dense last row and column to d (a global unknown, such
+// as a vapour fraction, in every balance): the matrix is then no longer
+// banded in any order, and is factored in sparse mode.
+func withBorder(rnd *rand.Rand, d [][]float64) [][]float64 {
+	n := len(d) + 1
+	out := make([][]float64, n)
+	for i := range out {
+		out[i] = make([]float64, n)
+		if i < n-1 {
+			copy(out[i], d[i])
+		}
+	}
+	for i := range n - 1 {
+		out[i][n-1] = 0.2 * rnd.NormFloat64()
+		out[n-1][i] = 0.2 * rnd.NormFloat64()
+	}
+	out[n-1][n-1] = 5
+	return out
+}
+
 // permutedDiag is a diagonal matrix with its rows shuffled: every natural
 // diagonal entry is zero.
 func permutedDiag(rnd *rand.Rand, n int) [][]float64 {
@@ -172,8 +192,13 @@ func TestSolveAgainstDense(t *testing.T) {
 		}
 		_ = trial
 	}
-	checkSolve(t, "tridiagonal 41", fromDense(tridiag(41), nil), nil, rnd)
-	checkSolve(t, "block tridiagonal 50x4", fromDense(blockTridiag(rnd, 50, 4), nil), nil, rnd)
+	// banded: both modes
+	for _, opts := range []*Options{nil, {sparseOnly: true}} {
+		checkSolve(t, "tridiagonal 41", fromDense(tridiag(41), nil), opts, rnd)
+		checkSolve(t, "block tridiagonal 50x4", fromDense(blockTridiag(rnd, 50, 4), nil), opts, rnd)
+		checkSolve(t, "block tridiagonal 200x4", blockTridiag200x4(), opts, rnd)
+	}
+	checkSolve(t, "bordered block tridiagonal 30x3", fromDense(withBorder(rnd, blockTridiag(rnd, 30, 3)), nil), nil, rnd)
 	checkSolve(t, "permuted diagonal", fromDense(permutedDiag(rnd, 30), nil), nil, rnd)
 	checkSolve(t, "1x1", fromDense([][]float64{{-3}}, nil), nil, rnd)
 }
@@ -227,10 +252,16 @@ func TestSingular(t *testing.T) {
 // TestRefactor reuses the symbolic analysis: new values with the same
 // pattern keep the pivots; values that break a kept pivot fall back to a
 // fresh factorisation; a new pattern is analysed anew.
+//
+// The matrix has a border, so that it is factored in sparse mode (band mode
+// chooses its pivots at every factorisation).
 func TestRefactor(t *testing.T) {
 	rnd := rand.New(rand.NewPCG(5, 6))
-	a := fromDense(blockTridiag(rnd, 20, 3), nil)
+	a := fromDense(withBorder(rnd, blockTridiag(rnd, 20, 3)), nil)
 	f := checkSolve(t, "first", a, nil, rnd)
+	if f.banded {
+		t.Fatal("bordered matrix factored in band mode")
+	}
 	for i := range a.Val {
 		a.Val[i] *= 1 + 0.01*rnd.NormFloat64()
 	}
@@ -334,6 +365,8 @@ func TestOrderIsPermutation(t *testing.T) {
 
 // TestFillTridiagonal: on a tridiagonal matrix the order must not create
 // fill beyond the band (L and U hold n-1 off-diagonals each).
+//
+// In sparse mode; band mode must find the band kl = ku = 1.
 func TestFillTridiagonal(t *testing.T) {
 	d := tridiag(41)
 	// shuffle the columns: the order has to find the band again
@@ -346,12 +379,24 @@ func TestFillTridiagonal(t *testing.T) {
 			sh[i][perm[j]] = d[i][j]
 		}
 	}
-	f, err := Factorize(fromDense(sh, nil), nil)
+	f, err := Factorize(fromDense(sh, nil), &Options{sparseOnly: true})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if l, u, _, _ := f.Stats(); l > 40 || u > 81 {
 		t.Errorf("tridiagonal 41: nnz(L) = %d, nnz(U) = %d; want at most 40 and 81", l, u)
+	}
+	f, err = Factorize(fromDense(sh, nil), nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !f.banded || f.bd.kl != 1 || f.bd.ku != 1 {
+		t.Errorf("shuffled tridiagonal 41: band mode %v, kl %d, ku %d; want band mode with 1 and 1", f.banded, f.bd.kl, f.bd.ku)
+	}
+	// the stored band: 40 multipliers; U's diagonal and kl+ku = 2
+	// superdiagonals, 1 + 2 + 39·3 entries
+	if l, u, _, _ := f.Stats(); l != 40 || u != 120 {
+		t.Errorf("tridiagonal 41 in band mode: nnz(L) = %d, nnz(U) = %d; want 40 and 120", l, u)
 	}
 }
 
@@ -372,12 +417,17 @@ func TestRefactorAfterSingular(t *testing.T) {
 
 // TestCopyFrom: a copy refactors and solves to the same bits as the
 // original, into reused storage, and copying nil empties the LU.
+//
+// In sparse mode (the matrix has a border); band mode in TestBandCopyFrom.
 func TestCopyFrom(t *testing.T) {
 	rnd := rand.New(rand.NewPCG(7, 8))
-	a := fromDense(blockTridiag(rnd, 12, 3), nil)
+	a := fromDense(withBorder(rnd, blockTridiag(rnd, 12, 3)), nil)
 	src, err := Factorize(a, nil)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if src.banded {
+		t.Fatal("bordered matrix factored in band mode")
 	}
 	other, err := Factorize(fromDense(tridiag(5), nil), nil) // storage of another shape
 	if err != nil {
@@ -418,13 +468,29 @@ func TestCopyFrom(t *testing.T) {
 }
 
 // TestRefactorValues: refactoring by values alone gives Refactor's bits,
-// keeping the pivots, and falls back to fresh pivots the same way.
+// keeping the pivots, and falls back to fresh pivots the same way; in band
+// mode both factor afresh each time.
 func TestRefactorValues(t *testing.T) {
 	rnd := rand.New(rand.NewPCG(9, 10))
-	a := fromDense(blockTridiag(rnd, 15, 2), nil)
+	for _, tc := range []struct {
+		name   string
+		a      *CSR
+		banded bool
+	}{
+		{"band", fromDense(blockTridiag(rnd, 15, 2), nil), true},
+		{"sparse", fromDense(withBorder(rnd, blockTridiag(rnd, 15, 2)), nil), false},
+	} {
+		t.Run(tc.name, func(t *testing.T) { testRefactorValues(t, rnd, tc.a, tc.banded) })
+	}
+}
+
+func testRefactorValues(t *testing.T, rnd *rand.Rand, a *CSR, banded bool) {
 	f1, err := Factorize(a, nil)
 	if err != nil {
 		t.Fatal(err)
+	}
+	if f1.banded != banded {
+		t.Fatalf("band mode %v, want %v", f1.banded, banded)
 	}
 	f2 := new(LU)
 	f2.CopyFrom(f1)
