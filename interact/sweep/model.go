@@ -109,6 +109,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
+	w.setFrom(State{})
 	startTangent := w.tangent(make([]float64, w.tangentSize(State{})), nominal, State{})
 	m.pivots = w.sol.Pivots()
 	if w.lu != nil {
@@ -295,20 +296,22 @@ type modelWorker struct {
 	sol  *solve.Solver // keeps prob's block decomposition between points
 	p    []float64     // the parameters of the point being solved
 
-	lu    *sparse.LU
-	fp    *mat.Dense // dF/dp for the inputs, then the axes
-	dxda  []float64  // dx/dp of each axis at the last point analysed, axis by axis
-	xpred []float64
-	dydx  *mat.Dense
-	dydu  *mat.Dense
-	k     *mat.Dense // the gain matrix of the last point, display units
-	rhs   []float64
-	z     []float64
-	work  []float64
-	y     []float64
-	gs    interact.GainSet
-	aopts interact.Options
-	az    *interact.Analyzer // its results last until the next point
+	lu     *sparse.LU
+	fp     *mat.Dense // dF/dp for the inputs, then the axes
+	dxda   []float64  // dx/dp of each axis at the last point analysed, axis by axis
+	xpred  []float64
+	fromT  tangentData // the tangent data of the point's start (setFrom)
+	fromOK bool
+	dydx   *mat.Dense
+	dydu   *mat.Dense
+	k      *mat.Dense // the gain matrix of the last point, display units
+	rhs    []float64
+	z      []float64
+	work   []float64
+	y      []float64
+	gs     interact.GainSet
+	aopts  interact.Options
+	az     *interact.Analyzer // its results last until the next point
 }
 
 func (m *modelRun) newWorker() *modelWorker {
@@ -365,6 +368,7 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	var res *solve.Result
 	var err error
 	iters := 0
+	w.setFrom(from)
 	if x0 := w.predict(p, from); x0 != nil {
 		fast := solve.Options{}
 		if opts != nil {
@@ -466,6 +470,12 @@ type tangentData struct {
 	pBack, xBack, dxBack []float64 // nil without the neighbour's part
 }
 
+// setFrom parses the tangent data of the state a point starts from, once
+// for predict, tangentSize and tangent.
+func (w *modelWorker) setFrom(from State) {
+	w.fromT, w.fromOK = parseTangent(from.Tangent, len(w.m.axes), len(from.X))
+}
+
 func parseTangent(t []float64, na, n int) (tangentData, bool) {
 	var d tangentData
 	switch len(t) {
@@ -487,9 +497,9 @@ func parseTangent(t []float64, na, n int) (tangentData, bool) {
 // (Hermite), which lets Newton converge in one iteration on smooth
 // stretches.
 func (w *modelWorker) predict(p []float64, from State) []float64 {
-	n, na := len(from.X), len(w.m.axes)
-	t, ok := parseTangent(from.Tangent, na, n)
-	if !ok {
+	n := len(from.X)
+	t := w.fromT
+	if !w.fromOK {
 		return nil
 	}
 	x := w.xpred
@@ -554,7 +564,7 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 func (w *modelWorker) tangentSize(from State) int {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := na * (n + 1)
-	if _, ok := parseTangent(from.Tangent, na, len(from.X)); ok && len(from.X) == n {
+	if w.fromOK && len(from.X) == n {
 		size = 2*size + n
 	}
 	return size
@@ -566,7 +576,7 @@ func (w *modelWorker) tangentSize(from State) int {
 func (w *modelWorker) tangent(t, p []float64, from State) []float64 {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := len(t)
-	back, _ := parseTangent(from.Tangent, na, len(from.X))
+	back := w.fromT
 	for a, k := range w.m.axes {
 		t[a] = p[k]
 	}
