@@ -301,31 +301,29 @@ func (b *bandLU) eliminate1(n int, q []int) error {
 	ab := b.ab[:n*ldab]
 	ipiv, rdiag := b.ipiv[:n], b.rdiag[:n]
 	ju := 0
-	ubound := 0.0  // largest |entry| of U so far
-	diag := ab[kv] // B(j,j) as updated so far
-	for j := range n {
+	gmax := b.gmax
+	ubound := 0.0       // largest |entry| of U so far
+	tlim := tiny * gmax // tiny·max(gmax, ubound): NaN when gmax is
+	diag := ab[kv]      // B(j,j) as updated so far
+	for j := range n - 1 {
 		d := j*ldab + kv
-		pivot, other, jp := diag, 0.0, 0
-		if j < n-1 {
-			other = ab[d+1] // B(j+1,j): row j+1 is as given
-			if math.Abs(other) > math.Abs(diag) {
-				pivot, other, jp = other, diag, 1
-			}
+		pivot, other, jp := diag, ab[d+1], 0 // B(j+1,j): row j+1 is as given
+		if math.Abs(other) > math.Abs(diag) {
+			pivot, other, jp = other, diag, 1
 		}
 		amax := math.Abs(pivot)
-		if amax == 0 {
-			return &SingularError{Col: q[j], Row: -1}
-		}
-		if lim := max(b.gmax, ubound); !(amax > tiny*lim && amax <= math.MaxFloat64) && !b.pivotOK(j, amax, ab[d-min(j, kv):d]) {
-			return &SingularError{Col: q[j], Row: b.rowAt(j, j+jp)}
+		if !(amax > tlim && amax <= math.MaxFloat64) {
+			if amax == 0 {
+				return &SingularError{Col: q[j], Row: -1}
+			}
+			if !b.pivotOK(j, amax, ab[d-min(j, kv):d]) {
+				return &SingularError{Col: q[j], Row: b.rowAt(j, j+jp)}
+			}
 		}
 		ipiv[j] = j + jp
 		r := 1 / pivot
 		rdiag[j] = r
 		ab[d] = pivot
-		if j == n-1 {
-			break
-		}
 		l := other * r
 		ab[d+1] = l
 		ju = max(ju, min(j+ku+jp, n-1))
@@ -338,30 +336,40 @@ func (b *bandLU) eliminate1(n int, q []int) error {
 		}
 		ab[e] = u
 		diag = a - other*u/pivot
-		if au := math.Abs(u); au > ubound {
-			ubound = au
-		}
+		umax := math.Abs(u)
 		if jp != 0 {
 			for c := j + 2; c <= ju; c++ {
 				base := c*(ldab-1) + kv + j // B(j,c)
 				t := ab[base+1]
 				ab[base+1] = ab[base] - l*t
 				ab[base] = t
-				if at := math.Abs(t); at > ubound {
-					ubound = at
-				}
+				umax = max(umax, math.Abs(t))
 			}
-			continue
+		} else {
+			for c := j + 2; c <= ju; c++ {
+				base := c*(ldab-1) + kv + j
+				t := ab[base]
+				ab[base+1] -= l * t
+				umax = max(umax, math.Abs(t))
+			}
 		}
-		for c := j + 2; c <= ju; c++ {
-			base := c*(ldab-1) + kv + j
-			t := ab[base]
-			ab[base+1] -= l * t
-			if at := math.Abs(t); at > ubound {
-				ubound = at
-			}
+		if umax > ubound {
+			ubound = umax
+			tlim = tiny * max(gmax, ubound)
 		}
 	}
+	j := n - 1
+	d := j*ldab + kv
+	amax := math.Abs(diag)
+	if amax == 0 {
+		return &SingularError{Col: q[j], Row: -1}
+	}
+	if !(amax > tlim && amax <= math.MaxFloat64) && !b.pivotOK(j, amax, ab[d-min(j, kv):d]) {
+		return &SingularError{Col: q[j], Row: b.rowAt(j, j)}
+	}
+	ipiv[j] = j
+	rdiag[j] = 1 / diag
+	ab[d] = diag
 	return nil
 }
 
