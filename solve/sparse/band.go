@@ -6,17 +6,17 @@ import (
 	"slices"
 )
 
-// Band mode: when the matrix, with its columns in the chosen order and its
-// rows in the order of the columns' matched rows, is narrow, it is factored
-// as a dense band with partial pivoting (the scheme of LAPACK's gbtf2) on
-// one contiguous array instead of by the sparse elimination. See the
-// package documentation for the rule that chooses it.
+// Band mode: when the matrix, with its rows and columns in a band order
+// (see chooseBand), is narrow, it is factored as a dense band with partial
+// pivoting (the scheme of LAPACK's gbtf2) on one contiguous array instead
+// of by the sparse elimination. See the package documentation for the rule
+// that chooses it.
 
 // bandMinN is the smallest order factored in band mode.
 const bandMinN = 8
 
-// bandSlack is the constant of the band rule: band mode is taken when
-// (2kl+ku+1)·n ≤ bandRatio·nnz(A) + bandSlack.
+// bandRatio and bandSlack are the constants of the band rule: band mode is
+// taken when (2kl+ku+1)·n ≤ bandRatio·nnz(A) + bandSlack.
 const (
 	bandRatio = 4
 	bandSlack = 64
@@ -29,7 +29,8 @@ func useBand(n, nnz, kl, ku int) bool {
 }
 
 // bandLU is the state of band mode. The band order puts at position k the
-// column q[k] and the row prow[k] = pref[q[k]]; B is A in that order. B's
+// column q[k] (LU.q, set by chooseBand) and the row prow[k]; B is A in that
+// order. B's
 // band is stored by columns as LAPACK stores it: B(i,j) at
 // ab[j*ldab + kl+ku + i-j], with kl extra rows above for the fill of the
 // row interchanges, so U has ku+kl superdiagonals. After the
