@@ -6,17 +6,17 @@ import (
 	"slices"
 )
 
-// Band mode: when the matrix, with its columns in the chosen order and its
-// rows in the order of the columns' matched rows, is narrow, it is factored
-// as a dense band with partial pivoting (the scheme of LAPACK's gbtf2) on
-// one contiguous array instead of by the sparse elimination. See the
-// package documentation for the rule that chooses it.
+// Band mode: when the matrix, with its rows and columns in a band order
+// (see chooseBand), is narrow, it is factored as a dense band with partial
+// pivoting (the scheme of LAPACK's gbtf2) on one contiguous array instead
+// of by the sparse elimination. See the package documentation for the rule
+// that chooses it.
 
 // bandMinN is the smallest order factored in band mode.
 const bandMinN = 8
 
-// bandSlack is the constant of the band rule: band mode is taken when
-// (2kl+ku+1)·n ≤ bandRatio·nnz(A) + bandSlack.
+// bandRatio and bandSlack are the constants of the band rule: band mode is
+// taken when (2kl+ku+1)·n ≤ bandRatio·nnz(A) + bandSlack.
 const (
 	bandRatio = 4
 	bandSlack = 64
@@ -29,7 +29,8 @@ func useBand(n, nnz, kl, ku int) bool {
 }
 
 // bandLU is the state of band mode. The band order puts at position k the
-// column q[k] and the row prow[k] = pref[q[k]]; B is A in that order. B's
+// column q[k] (LU.q, set by chooseBand) and the row prow[k]; B is A in that
+// order. B's
 // band is stored by columns as LAPACK stores it: B(i,j) at
 // ab[j*ldab + kl+ku + i-j], with kl extra rows above for the fill of the
 // row interchanges, so U has ku+kl superdiagonals. After the
@@ -301,31 +302,29 @@ func (b *bandLU) eliminate1(n int, q []int) error {
 	ab := b.ab[:n*ldab]
 	ipiv, rdiag := b.ipiv[:n], b.rdiag[:n]
 	ju := 0
-	ubound := 0.0  // largest |entry| of U so far
-	diag := ab[kv] // B(j,j) as updated so far
-	for j := range n {
+	gmax := b.gmax
+	ubound := 0.0       // largest |entry| of U so far
+	tlim := tiny * gmax // tiny·max(gmax, ubound): NaN when gmax is
+	diag := ab[kv]      // B(j,j) as updated so far
+	for j := range n - 1 {
 		d := j*ldab + kv
-		pivot, other, jp := diag, 0.0, 0
-		if j < n-1 {
-			other = ab[d+1] // B(j+1,j): row j+1 is as given
-			if math.Abs(other) > math.Abs(diag) {
-				pivot, other, jp = other, diag, 1
-			}
+		pivot, other, jp := diag, ab[d+1], 0 // B(j+1,j): row j+1 is as given
+		if math.Abs(other) > math.Abs(diag) {
+			pivot, other, jp = other, diag, 1
 		}
 		amax := math.Abs(pivot)
-		if amax == 0 {
-			return &SingularError{Col: q[j], Row: -1}
-		}
-		if lim := max(b.gmax, ubound); !(amax > tiny*lim && amax <= math.MaxFloat64) && !b.pivotOK(j, amax, ab[d-min(j, kv):d]) {
-			return &SingularError{Col: q[j], Row: b.rowAt(j, j+jp)}
+		if !(amax > tlim && amax <= math.MaxFloat64) {
+			if amax == 0 {
+				return &SingularError{Col: q[j], Row: -1}
+			}
+			if !b.pivotOK(j, amax, ab[d-min(j, kv):d]) {
+				return &SingularError{Col: q[j], Row: b.rowAt(j, j+jp)}
+			}
 		}
 		ipiv[j] = j + jp
 		r := 1 / pivot
 		rdiag[j] = r
 		ab[d] = pivot
-		if j == n-1 {
-			break
-		}
 		l := other * r
 		ab[d+1] = l
 		ju = max(ju, min(j+ku+jp, n-1))
@@ -338,30 +337,40 @@ func (b *bandLU) eliminate1(n int, q []int) error {
 		}
 		ab[e] = u
 		diag = a - other*u/pivot
-		if au := math.Abs(u); au > ubound {
-			ubound = au
-		}
+		umax := math.Abs(u)
 		if jp != 0 {
 			for c := j + 2; c <= ju; c++ {
 				base := c*(ldab-1) + kv + j // B(j,c)
 				t := ab[base+1]
 				ab[base+1] = ab[base] - l*t
 				ab[base] = t
-				if at := math.Abs(t); at > ubound {
-					ubound = at
-				}
+				umax = max(umax, math.Abs(t))
 			}
-			continue
+		} else {
+			for c := j + 2; c <= ju; c++ {
+				base := c*(ldab-1) + kv + j
+				t := ab[base]
+				ab[base+1] -= l * t
+				umax = max(umax, math.Abs(t))
+			}
 		}
-		for c := j + 2; c <= ju; c++ {
-			base := c*(ldab-1) + kv + j
-			t := ab[base]
-			ab[base+1] -= l * t
-			if at := math.Abs(t); at > ubound {
-				ubound = at
-			}
+		if umax > ubound {
+			ubound = umax
+			tlim = tiny * max(gmax, ubound)
 		}
 	}
+	j := n - 1
+	d := j*ldab + kv
+	amax := math.Abs(diag)
+	if amax == 0 {
+		return &SingularError{Col: q[j], Row: -1}
+	}
+	if !(amax > tlim && amax <= math.MaxFloat64) && !b.pivotOK(j, amax, ab[d-min(j, kv):d]) {
+		return &SingularError{Col: q[j], Row: b.rowAt(j, j)}
+	}
+	ipiv[j] = j
+	rdiag[j] = 1 / diag
+	ab[d] = diag
 	return nil
 }
 

@@ -11,7 +11,9 @@ import (
 type Options struct {
 	// Tau is the pivot threshold: a pivot is acceptable when its magnitude
 	// is at least Tau times the largest candidate in its column. Zero means
-	// 0.1. Tau = 1 is classical partial pivoting.
+	// 0.1. Tau = 1 is classical partial pivoting. Band mode (see the
+	// package documentation) always pivots partially, which satisfies any
+	// Tau.
 	Tau float64
 	// Order is the column ordering; the zero value is RCM.
 	Order Ordering
@@ -30,7 +32,9 @@ func (o *Options) tau() float64 {
 
 // LU is a sparse factorisation P A Q = L U of a square matrix, with L unit
 // lower triangular. Once factored, the solve methods only read it and may be
-// called from several goroutines; Refactor writes it.
+// called from several goroutines; Refactor writes it. A matrix that is a
+// narrow band once ordered is factored in band storage instead, without a
+// difference to the caller (see the package documentation).
 type LU struct {
 	n   int
 	tau float64
