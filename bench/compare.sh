@@ -1,9 +1,11 @@
 #!/usr/bin/env bash
 # Compare loopwright's sweep with the SciPy peer (/work/shared/bench/peer_scipy.py,
 # or $PEER): the column A 20 x 20 and blender 100 x 100 sweeps, one core each,
-# runs alternated; prints median points/s and the ratio, and checks that every
-# point's λ11 and Niederlinski index agree to 1e-6 (relative, after the peer's
-# 6-digit rounding). Usage: bench/compare.sh [RUNS] (default 5).
+# runs alternated (peer, then Go straight after); prints median points/s, the
+# median and range of the ratios of each back-to-back pair (the machine's speed
+# drifts between pairs more than within one), and checks that every point's λ11
+# and Niederlinski index agree to 1e-6 (relative, after the peer's 6-digit
+# rounding). Usage: bench/compare.sh [RUNS] (default 5).
 # Needs: apt-get install -y python3-scipy python3-numpy; run from anywhere.
 set -euo pipefail
 runs=${1:-5}
@@ -26,6 +28,7 @@ import json, statistics, sys
 model, tmp = sys.argv[1], sys.argv[2]
 rate = lambda f: [json.loads(l)["points_per_s"] for l in open(f"{tmp}/{f}.{model}")]
 go, py = statistics.median(rate("go")), statistics.median(rate("py"))
+pairs = sorted(g / p for g, p in zip(rate("go"), rate("py")))
 axes = {"column": ("zF", "F"), "blender": ("s_conc", "f_conc")}[model]
 def pts(f):
     # The peer numbers points in its serpentine order: match on the axis values.
@@ -40,8 +43,10 @@ for i, p in pp.items():
     for a, b in ((g["rga"][0], p["rga"][0][0]), (g["niederlinski"], p["niederlinski"])):
         half_digit = 0.5 * 10 ** (math.floor(math.log10(abs(b))) - 5)  # the peer prints 6 significant digits
         worst = max(worst, abs(a - b) / (1e-6 * abs(b) + half_digit))
-print(f"{model}: go {go:.0f} points/s, peer {py:.0f} points/s (medians of {len(rate('go'))}), "
-      f"ratio {go/py:.1f}x; {len(pp)} points: λ11 and NI agree (worst {worst:.2f} of the tolerance 1e-6 + peer rounding)")
+print(f"{model}: go {go:.0f} points/s, peer {py:.0f} points/s (medians of {len(rate('go'))}); "
+      f"ratio of the medians {go/py:.1f}x, of back-to-back pairs median {statistics.median(pairs):.1f}x "
+      f"(range {pairs[0]:.1f}x..{pairs[-1]:.1f}x); {len(pp)} points: λ11 and NI agree "
+      f"(worst {worst:.2f} of the tolerance 1e-6 + peer rounding)")
 if worst > 1:
     sys.exit(f"{model}: numbers differ by more than 1e-6")
 PY
