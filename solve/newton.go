@@ -512,8 +512,13 @@ func (s *solver) setScales() {
 	p := s.prob
 	for i := range s.n {
 		m := 0.0
-		for k := p.RowPtr[i]; k < p.RowPtr[i+1]; k++ {
-			m = max(m, math.Abs(s.jval[k])*s.typ[p.ColIdx[k]])
+		cols, vals := p.ColIdx[p.RowPtr[i]:p.RowPtr[i+1]], s.jval[p.RowPtr[i]:p.RowPtr[i+1]]
+		for k, c := range cols {
+			// max(m, v) for v >= 0 or NaN, NaN once either is, as the
+			// built-in gives it, without its call.
+			if v := math.Abs(vals[k]) * s.typ[c]; v > m || v != v {
+				m = v
+			}
 		}
 		if m == 0 || math.IsInf(m, 0) || math.IsNaN(m) {
 			m = 1
