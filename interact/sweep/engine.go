@@ -55,7 +55,8 @@ type Problem struct {
 	// overrides the axes' slots.
 	Nominal []float64
 	// Start is the converged state at the nominal point: every chain's first
-	// point starts from it, and so does a retry after a failed continuation.
+	// point not solved beforehand (see Heads) starts from it, and so does a
+	// retry after a failed continuation.
 	Start []float64
 	// StartTangent is the worker's tangent data at Start (State.Tangent);
 	// may be nil.

@@ -330,8 +330,8 @@ func (m *modelRun) newWorker() *modelWorker {
 		Lower: m.lower, Upper: m.upper, VarNames: m.names, EqNames: m.eqNames,
 	}
 	w.sol = solve.NewSolver(w.prob)
-	// Pivots are kept along a chain and forgotten at its start, so that
-	// records depend on the chain alone (not on -j).
+	// Pivots are kept along a chain and reset to the nominal solve's at its
+	// start, so that records depend on the chain alone (not on -j).
 	w.sol.KeepPivots = true
 	if m.opts.Analysis != nil {
 		w.aopts = *m.opts.Analysis
@@ -345,10 +345,9 @@ func (m *modelRun) newWorker() *modelWorker {
 }
 
 // Point implements Worker. From a neighbour it first predicts the state
-// at p along the neighbour's tangent (x + dx/dp·Δp over the axes) and
-// corrects with plain Newton on the whole system; when that does not
-// converge quickly it solves from the neighbour's state with the solver's
-// full strategy (blocks, homotopy), as from any guess.
+// at p (see predict) and corrects with plain Newton on the whole system;
+// when that does not converge quickly it solves from the neighbour's state
+// with the solver's full strategy (blocks, homotopy), as from any guess.
 func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
 	w.p = p
 	if from.ChainStart {
