@@ -93,10 +93,13 @@ func Compile(sys *model.System) (*Program, error) {
 			pool.collect(t)
 		}
 	}
+	for _, c := range preConstants {
+		pool.add(c)
+	}
 	prog.consts = pool.vals
 	prog.base = prog.nx + prog.np + len(pool.vals)
 	prog.size = prog.base
-	lower := func(ts []*tape) (*fwdProgram, revSweeps) {
+	lower := func(ts []*tape, pre bool) (*fwdProgram, revSweeps) {
 		l := newLowering(prog.nx, prog.np, &pool)
 		for _, t := range ts {
 			l.tape(t)
@@ -104,12 +107,20 @@ func Compile(sys *model.System) (*Program, error) {
 		f := l.schedule()
 		prog.size = max(prog.size, prog.base+len(f.code))
 		prog.dsize = max(prog.dsize, int(l.dnext))
-		return f, revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP), sweeps: l.sweeps}
+		rev := revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP), sweeps: l.sweeps}
+		if pre {
+			rev.tan, rev.xPre = l.preaccumulate(f)
+			if rev.tan != nil {
+				rev.tanBase = prog.base + len(f.code)
+				prog.size = max(prog.size, rev.tanBase+len(rev.tan.code))
+			}
+		}
+		return f, rev
 	}
-	prog.eqFwd, prog.eqRev = lower(prog.eqs)
-	prog.outFwd, prog.outRev = lower(prog.outs)
-	prog.defFwd, _ = lower(prog.defs) // reverse sweeps kept only for describing errors
-	prog.chkFwd, _ = lower(prog.checks)
+	prog.eqFwd, prog.eqRev = lower(prog.eqs, true) // dF/dx: preaccumulated
+	prog.outFwd, prog.outRev = lower(prog.outs, false)
+	prog.defFwd, _ = lower(prog.defs, false) // reverse sweeps kept only for describing errors
+	prog.chkFwd, _ = lower(prog.checks, false)
 
 	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
 	for i, t := range prog.eqs {
@@ -127,6 +138,13 @@ func Compile(sys *model.System) (*Program, error) {
 type revSweeps struct {
 	all, x, p []batch
 	sweeps    []sweep // every step of every tape, for paramBatches
+
+	// The x sweeps stopping at preaccumulated values (xPre), after the
+	// tangent program tan, whose temporaries start at w[tanBase], has run;
+	// nil when the group has nothing worth preaccumulating (preacc.go).
+	tan     *fwdProgram
+	tanBase int
+	xPre    []batch
 }
 
 // maxErrors is the number of errors Compile reports before it stops.

@@ -136,11 +136,37 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
 	}
 	forward(e.prog.eqFwd, e.w, e.prog.base)
-	reverse(e.prog.eqs, e.prog.eqRev.x, e.d, e.w)
+	rev := &e.prog.eqRev
+	pre := rev.tan != nil
+	if pre {
+		forward(rev.tan, e.w, rev.tanBase)
+		pre = allFinite(e.w[rev.tanBase : rev.tanBase+len(rev.tan.code)])
+	}
+	if pre {
+		reverse(e.prog.eqs, rev.xPre, e.d, e.w)
+		retry, err := e.jacobianRows(f, dst, true)
+		if !retry {
+			return err
+		}
+	}
+	// Nothing preaccumulated, or a tangent or a derivative that is not
+	// finite: the full sweeps decide, and describe what is wrong.
+	reverse(e.prog.eqs, rev.x, e.d, e.w)
+	_, err := e.jacobianRows(f, dst, false)
+	return err
+}
+
+// jacobianRows copies the residuals into f (when not nil) and the
+// derivatives of the last reverse sweeps into dst.Val, checking both. When
+// a derivative is not finite it returns retry = true if pre (the sweeps
+// stopped at preaccumulated values, and the full sweeps should be run
+// instead), and an error describing it otherwise.
+func (e *Eval) jacobianRows(f []float64, dst *Sparse, pre bool) (retry bool, err error) {
+	pat := e.prog.pattern
 	for i, t := range e.prog.eqs {
 		r, err := e.value(t)
 		if err != nil {
-			return err
+			return false, err
 		}
 		if f != nil {
 			f[i] = r
@@ -148,13 +174,26 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		row := dst.Val[pat.RowPtr[i]:pat.RowPtr[i+1]]
 		for k, d := range e.d[t.adj0 : int(t.adj0)+len(row)] {
 			if !finite(d) {
+				if pre {
+					return true, nil
+				}
 				vr := t.vars[k]
-				return e.derivFault(e.prog.eqs, &e.prog.eqRev, t, e.prog.xNames[vr.index])
+				return false, e.derivFault(e.prog.eqs, &e.prog.eqRev, t, e.prog.xNames[vr.index])
 			}
 			row[k] = d
 		}
 	}
-	return nil
+	return false, nil
+}
+
+// allFinite reports whether every element of v is finite.
+func allFinite(v []float64) bool {
+	for _, f := range v {
+		if f-f != 0 {
+			return false
+		}
+	}
+	return true
 }
 
 // ParamJacobian sets column k of dst to dF/dp[cols[k]] at (x, p); dst has one

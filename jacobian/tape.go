@@ -31,6 +31,11 @@ const (
 	opAbs
 	opMin // min(a, b); ties go to a
 	opMax // max(a, b); ties go to a
+
+	// opChain is a reverse step only, of a sweep that stops at a
+	// preaccumulated value: the adjoint of an unknown receives g*w[vb], the
+	// value's derivative with respect to it (preacc.go).
+	opChain
 )
 
 func (c opcode) binary() bool {
@@ -314,6 +319,15 @@ func reverseStep(code opcode, lanes []rlane, d, w unsafe.Pointer) {
 			o := &lanes[j]
 			if g := *at(d, o.tk); g != 0 {
 				*at(d, o.ta) = *at(d, o.sa) - g
+			} else {
+				skip(o, d)
+			}
+		}
+	case opChain:
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vb)
 			} else {
 				skip(o, d)
 			}
