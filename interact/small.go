@@ -364,6 +364,12 @@ func svd2(s, u0, u1, v0, v1 []float64, k *mat.Dense) bool {
 	if !in2Range(a00, a01, a10, a11) || (a00 == 0 && a01 == 0 && a10 == 0 && a11 == 0) {
 		return false
 	}
+	return svd2Of(s, u0, u1, v0, v1, a00, a01, a10, a11)
+}
+
+// svd2Of is svd2 of [a00 a01; a10 a11], which the caller has checked to be
+// in range and not zero.
+func svd2Of(s, u0, u1, v0, v1 []float64, a00, a01, a10, a11 float64) bool {
 	d0, e0, d1, hv, tau := bidiag2(a00, a01, a10, a11)
 	if tau != 0 && hv == 0 {
 		return false // underflow inside the reflector: leave it to LAPACK
