@@ -434,6 +434,7 @@ func bitSystems(t *testing.T) map[string]*model.System {
 		"binaryColumn(41)": binaryColumn(41, 21),
 		"multiColumn(30)":  multiColumn(30, 15),
 		"nestedOps":        nestedOps(),
+		"sharedOps":        sharedOps(),
 	}
 	var files []string
 	for _, pat := range []string{"../testdata/models/*.yaml", "../library/templates/*.yaml"} {

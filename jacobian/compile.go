@@ -20,6 +20,8 @@ type Program struct {
 	defs    []*tape
 	checks  []*tape
 	pattern *Sparse // structure of dF/dx, Val nil
+	eqOut   []int32 // index in w of each equation's residual
+	eqAdj   []int32 // index in d of each entry of dF/dx, in the order of pattern
 	maxOps  int     // longest tape (source form), for describing errors
 	consts  []float64
 
@@ -115,6 +117,7 @@ func Compile(sys *model.System) (*Program, error) {
 				prog.size = max(prog.size, rev.tanBase+len(rev.tan.code))
 			}
 		}
+		rev.seeds = newSeeds(ts) // after preaccumulate, which adds to the zero lists
 		return f, rev
 	}
 	prog.eqFwd, prog.eqRev = lower(prog.eqs, true) // dF/dx: preaccumulated
@@ -130,12 +133,19 @@ func Compile(sys *model.System) (*Program, error) {
 		pat.RowPtr[i+1] = len(pat.ColIdx)
 	}
 	prog.pattern = pat
+	for _, t := range prog.eqs {
+		prog.eqOut = append(prog.eqOut, t.out)
+		for k := range t.vars {
+			prog.eqAdj = append(prog.eqAdj, t.adj0+int32(k))
+		}
+	}
 	return prog, nil
 }
 
 // revSweeps are the reverse sweeps of a group of tapes in batches, all steps
 // or only those whose result depends on x or on p.
 type revSweeps struct {
+	seeds
 	all, x, p []batch
 	sweeps    []sweep // every step of every tape, for paramBatches
 

@@ -237,19 +237,36 @@ func forwardOther(o instr, w unsafe.Pointer) float64 {
 	panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 }
 
-// reverse runs the adjoint sweeps of tapes, whose steps are batches, after
-// the forward program of their group: d receives the derivative of each
-// tape's result with respect to its temporaries, unknowns and parameters,
-// in the tape's region; w holds the values. Each adjoint is accumulated term
-// by term in the order of the source form's sweep, operand a before operand
-// b, starting from 0, and a step whose own adjoint is 0 is skipped, so every
-// derivative is the same number the source form gives.
-func reverse(tapes []*tape, batches []batch, d, w []float64) {
+// seeds are what a group's reverse sweeps start from, gathered from its
+// tapes: the adjoints to clear (each tape's zero list) and the adjoints of
+// the results, set to 1.
+type seeds struct {
+	zero, root []int32
+}
+
+func newSeeds(tapes []*tape) seeds {
+	var s seeds
 	for _, t := range tapes {
-		for _, z := range t.zero {
-			d[z] = 0
-		}
-		d[t.rootAdj] = 1
+		s.zero = append(s.zero, t.zero...)
+		s.root = append(s.root, t.rootAdj)
+	}
+	return s
+}
+
+// reverse runs the adjoint sweeps of a group's tapes, whose seeds are s and
+// whose steps are batches, after the forward program of their group: d
+// receives the derivative of each tape's result with respect to its
+// temporaries, unknowns and parameters, in the tape's region; w holds the
+// values. Each adjoint is accumulated term by term in the order of the
+// source form's sweep, operand a before operand b, starting from 0, and a
+// step whose own adjoint is 0 is skipped, so every derivative is the same
+// number the source form gives.
+func reverse(s *seeds, batches []batch, d, w []float64) {
+	for _, z := range s.zero {
+		d[z] = 0
+	}
+	for _, r := range s.root {
+		d[r] = 1
 	}
 	for b := range batches {
 		bt := &batches[b]
