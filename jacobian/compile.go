@@ -111,7 +111,7 @@ func Compile(sys *model.System) (*Program, error) {
 		prog.dsize = max(prog.dsize, int(l.dnext))
 		rev := revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP), sweeps: l.sweeps}
 		if pre {
-			rev.tan, rev.xPre = l.preaccumulate(f)
+			rev.tan, rev.xPre, rev.npre = l.preaccumulate(f)
 			if rev.tan != nil {
 				rev.tanBase = prog.base + len(f.code)
 				prog.size = max(prog.size, rev.tanBase+len(rev.tan.code))
@@ -155,6 +155,7 @@ type revSweeps struct {
 	tan     *fwdProgram
 	tanBase int
 	xPre    []batch
+	npre    int // values preaccumulated
 }
 
 // maxErrors is the number of errors Compile reports before it stops.

@@ -405,10 +405,10 @@ var preConstants = []float64{0, 1, -1, math.Ln10}
 
 // preaccumulate chooses the values of the group to preaccumulate and builds
 // their tangent program, whose temporaries start after f's, and each tape's
-// x sweep that stops at them, in batches. It returns nil, nil when nothing
-// is worth preaccumulating. It adds to each tape's zero list the adjoints of
+// x sweep that stops at them, in batches, and the number of values chosen.
+// It returns nil, nil, 0 when nothing is worth preaccumulating. It adds to each tape's zero list the adjoints of
 // unknowns its shortened sweep does not reach.
-func (l *lowering) preaccumulate(f *fwdProgram) (*fwdProgram, []batch) {
+func (l *lowering) preaccumulate(f *fwdProgram) (*fwdProgram, []batch, int) {
 	pa := &preacc{
 		l:     l,
 		f:     f,
@@ -420,12 +420,14 @@ func (l *lowering) preaccumulate(f *fwdProgram) (*fwdProgram, []batch) {
 	pa.analyse()
 	pa.choose(l.tapes)
 	if !slices.Contains(pa.chosen, true) {
-		return nil, nil
+		return nil, nil, 0
 	}
+	n := 0
 	for i, c := range pa.chosen {
 		if !c {
 			continue
 		}
+		n++
 		v := l.base + int32(i)
 		for _, j := range pa.leaves[i] {
 			pa.tan[[2]int32{v, j}] = pa.slotOf(pa.tangent(v, j))
@@ -439,7 +441,7 @@ func (l *lowering) preaccumulate(f *fwdProgram) (*fwdProgram, []batch) {
 	for i, t := range l.tapes {
 		sweeps[i] = pa.sweep(t)
 	}
-	return tan, group(sweeps)
+	return tan, group(sweeps), n
 }
 
 // sweep builds t's x sweep that stops at the chosen values: the steps of
@@ -467,6 +469,15 @@ func (pa *preacc) sweep(t *tape) sweep {
 		}
 		return t.aslot[s], t.aslot[s]
 	}
+	// firstX is the adjoint a step reaching unknown x (whose adjoint is
+	// adj) adds to: the zero slot unless a chain step reached x before.
+	firstX := func(x, adj int32) int32 {
+		if xReached[x] {
+			return adj
+		}
+		xReached[x] = true
+		return dZero
+	}
 	var sw sweep
 	if n > 0 {
 		reached[t.root] = true
@@ -493,10 +504,15 @@ func (pa *preacc) sweep(t *tape) sweep {
 			}
 			continue
 		}
+		if r, code, ok := pa.oneSided(t, k, target, firstX); ok {
+			sw.code = append(sw.code, code)
+			sw.lanes = append(sw.lanes, r)
+			continue
+		}
 		r := rlane{va: t.slot[o.a], vk: t.slot[k], tk: t.aslot[k]}
 		r.ta, r.sa = target(o.a)
 		if t.ops[o.a].code == opVar && r.sa == dZero {
-			r.sa = pa.firstX(xReached, t.ops[o.a].a, r.ta)
+			r.sa = firstX(t.ops[o.a].a, r.ta)
 		}
 		switch {
 		case o.code == opPowC:
@@ -506,7 +522,7 @@ func (pa *preacc) sweep(t *tape) sweep {
 			r.vb = t.slot[o.b]
 			r.tb, r.sb = target(o.b)
 			if t.ops[o.b].code == opVar && r.sb == dZero {
-				r.sb = pa.firstX(xReached, t.ops[o.b].a, r.tb)
+				r.sb = firstX(t.ops[o.b].a, r.tb)
 			}
 		default:
 			r.vb = r.va
@@ -525,12 +541,43 @@ func (pa *preacc) sweep(t *tape) sweep {
 	return sw
 }
 
-// firstX is the adjoint a step reaching unknown x (whose adjoint is adj)
-// adds to: the zero slot unless a chain step reached x before.
-func (pa *preacc) firstX(xReached map[int32]bool, x, adj int32) int32 {
-	if xReached[x] {
-		return adj
+// oneSided returns the step of op k of t (reached, depending on x) as a
+// step that adds to one operand only, when it is +, - or * and its other
+// operand does not depend on x: that operand's adjoint leads only to
+// parameters and constants, so the x sweep need not write it. The operand
+// that depends on x receives the same number as from the two-sided step:
+// g*w[other] for *, g (as g*1) for + and for the first operand of -, -g for
+// the second operand of -.
+func (pa *preacc) oneSided(t *tape, k int, target func(int32) (int32, int32), firstX func(x, adj int32) int32) (rlane, opcode, bool) {
+	o := t.ops[k]
+	switch o.code {
+	case opAdd, opSub, opMul:
+	default:
+		return rlane{}, 0, false
 	}
-	xReached[x] = true
-	return dZero
+	xa, xb := pa.depx[t.slot[o.a]], pa.depx[t.slot[o.b]]
+	if xa == xb {
+		return rlane{}, 0, false
+	}
+	live, other := o.a, o.b
+	if xb {
+		live, other = o.b, o.a
+	}
+	r := rlane{tk: t.aslot[k], tb: dSink, sb: dZero}
+	r.ta, r.sa = target(live)
+	if t.ops[live].code == opVar && r.sa == dZero {
+		r.sa = firstX(t.ops[live].a, r.ta)
+	}
+	code := opChain
+	switch {
+	case o.code == opMul:
+		r.vb = t.slot[other]
+	case o.code == opSub && live == o.b:
+		code = opNeg
+		r.vb = t.slot[live]
+	default:
+		r.vb = pa.constant(1)
+	}
+	r.va, r.vk = r.vb, r.vb
+	return r, code, true
 }
