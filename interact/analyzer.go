@@ -57,11 +57,12 @@ type Analyzer struct {
 	sc  screener
 	per Pairing
 
-	cands []candidate
-	store []int
-	res   []PairingResult
-	slots []resultSlot
-	fresh bool // the Analysis will be the caller's: copy the signal lists
+	cands   []candidate
+	store   []int
+	res     []PairingResult
+	slots   []resultSlot
+	fresh   bool // the Analysis will be the caller's: copy the signal lists
+	shaped2 bool // the storage matrix2 fills is 2x2 (see shape2)
 }
 
 // resultSlot is the storage of the k-th detailed pairing.
@@ -100,9 +101,10 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 	if z.fy, err = g.scaledInto(opts.Scaling, k, kd, z.fy); err != nil {
 		return nil, err
 	}
+	kr := k.RawMatrix()
 	for i := range g.Outputs {
-		for j := range g.Inputs {
-			if v := k.At(i, j); isInfOrNaN(v) {
+		for j, v := range kr.Data[i*kr.Stride : i*kr.Stride+n0] {
+			if v-v != 0 { // ±Inf or NaN
 				return nil, fmt.Errorf("interact: gain %s/%s is %v: every gain must be a finite number", g.Outputs[i].Name, g.Inputs[j].Name, v)
 			}
 		}
@@ -170,6 +172,8 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 			return z.rank(a, n, maxOut)
 		}
 	}
+
+	z.shaped2 = false // the storage below may change shape
 
 	// One LU of K gives the RGA, det K and (with disturbances) K⁻¹Kd; one
 	// SVD gives the singular values and the singularity test of the

@@ -71,8 +71,8 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	t = 1 / a00
 	b00 *= t
 	b01 *= t
-	an := math.Max(math.Abs(a00)+math.Abs(a01), math.Abs(a10)+math.Abs(a11))
-	in := math.Max(math.Abs(b00)+math.Abs(b01), math.Abs(b10)+math.Abs(b11))
+	an := maxPos(math.Abs(a00)+math.Abs(a01), math.Abs(a10)+math.Abs(a11))
+	in := maxPos(math.Abs(b00)+math.Abs(b01), math.Abs(b10)+math.Abs(b11))
 	if cond := an * in; !(cond <= 1e10) {
 		return false, nil
 	}
@@ -80,7 +80,9 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	if swap {
 		det = -det
 	}
-	reshape(&z.kinv, 2, 2)
+	if !z.shaped2 {
+		z.shape2()
+	}
 	ir := z.kinv.RawMatrix()
 	ir.Data[0], ir.Data[1], ir.Data[ir.Stride], ir.Data[ir.Stride+1] = b00, b01, b10, b11
 
@@ -88,10 +90,7 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	l00, l01, l10, l11 := float64(k00*b00), float64(k01*b10), float64(k10*b01), float64(k11*b11)
 	lam00, lam01 := l00, l01 // before zeroRoundoff
 	gamma := minCond2From(l00, l01)
-	big := 1.0
-	for _, v := range [4]float64{l00, l01, l10, l11} {
-		big = math.Max(big, math.Abs(v)) // finite: no NaN to mind
-	}
+	big := maxPos(maxPos(1, math.Abs(l00)), maxPos(math.Abs(l01), maxPos(math.Abs(l10), math.Abs(l11))))
 	if tol := 1e-10 * big; true {
 		if math.Abs(l00) < tol {
 			l00 = 0
@@ -106,22 +105,14 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 			l11 = 0
 		}
 	}
-	reshape(&z.rga, 2, 2)
 	rr := z.rga.RawMatrix()
 	rr.Data[0], rr.Data[1], rr.Data[rr.Stride], rr.Data[rr.Stride+1] = l00, l01, l10, l11
-	reshape(&z.sens, 2, 2)
 	sr := z.sens.RawMatrix()
 	sr.Data[0], sr.Data[1], sr.Data[sr.Stride], sr.Data[sr.Stride+1] = 1/l00, 1/l01, 1/l10, 1/l11
 	a.RGA, a.Sensitivity, a.Det = &z.rga, &z.sens, det
 
 	// The SVD, as svdInto gives it.
 	r := &z.svd
-	if r.U == nil {
-		r.U, r.V = new(mat.Dense), new(mat.Dense)
-	}
-	reshape(r.U, 2, 2)
-	reshape(r.V, 2, 2)
-	r.Values = resizeFloats(r.Values, 2)
 	ud, vd := r.U.RawMatrix(), r.V.RawMatrix()
 	if !svd2Of(r.Values, ud.Data[0:2], ud.Data[ud.Stride:ud.Stride+2], vd.Data[0:2], vd.Data[vd.Stride:vd.Stride+2], k00, k01, k10, k11) {
 		return false, nil
@@ -135,8 +126,11 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	// γ* and the scalings that attain it, as minCond2 computes them; γ*
 	// from λ where that formula agrees with minCond2's singular values of
 	// the balanced matrix (see minCond2From), from those otherwise.
-	z.dl, z.dr = resizeFloats(z.dl, 2), resizeFloats(z.dr, 2)
-	if m := math.Min(lam00, lam01); math.Abs(m) >= 1e-3 && gamma <= 64 {
+	m := lam00
+	if lam01 < m {
+		m = lam01
+	}
+	if math.Abs(m) >= 1e-3 && gamma <= 64 {
 		ak, bk, ck, dk := math.Abs(k00), math.Abs(k01), math.Abs(k10), math.Abs(k11)
 		s := math.Sqrt(ak * ck / (bk * dk))
 		q := ak / (s * dk)
@@ -151,6 +145,21 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	a.MinCond, a.Dl, a.Dr = gamma, z.dl, z.dr
 	z.noteCondition()
 	return true, nil
+}
+
+// shape2 makes the matrices and slices matrix2 fills 2x2 (2 long), and
+// records it in z.shaped2, which the general path clears.
+func (z *Analyzer) shape2() {
+	r := &z.svd
+	if r.U == nil {
+		r.U, r.V = new(mat.Dense), new(mat.Dense)
+	}
+	for _, d := range [...]*mat.Dense{&z.kinv, &z.rga, &z.sens, r.U, r.V} {
+		reshape(d, 2, 2)
+	}
+	r.Values = resizeFloats(r.Values, 2)
+	z.dl, z.dr = resizeFloats(z.dl, 2), resizeFloats(z.dr, 2)
+	z.shaped2 = true
 }
 
 // minCond2From is the minimised condition number of a non-singular 2x2
@@ -179,6 +188,15 @@ func minCond2From(l11, l12 float64) float64 {
 		t = -l12
 	}
 	return 1 + 2*(t+math.Sqrt(t*(1+t)))
+}
+
+// maxPos is math.Max of two numbers that are not NaN and not both zero
+// of different signs, without math.Max's call.
+func maxPos(x, y float64) float64 {
+	if x > y {
+		return x
+	}
+	return y
 }
 
 // in2Range4 is in2Range of four numbers.
