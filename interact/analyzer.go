@@ -57,11 +57,12 @@ type Analyzer struct {
 	sc  screener
 	per Pairing
 
-	cands []candidate
-	store []int
-	res   []PairingResult
-	slots []resultSlot
-	fresh bool // the Analysis will be the caller's: copy the signal lists
+	cands   []candidate
+	store   []int
+	res     []PairingResult
+	slots   []resultSlot
+	fresh   bool // the Analysis will be the caller's: copy the signal lists
+	shaped2 bool // the storage matrix2 fills is 2x2 (see shape2)
 }
 
 // resultSlot is the storage of the k-th detailed pairing.
@@ -86,7 +87,7 @@ func NewAnalyzer(opts *Options) *Analyzer {
 // Analyze analyses g as the package function Analyze does, into the
 // Analyzer's storage: the result is valid until the next call.
 func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
-	opts, th := &z.opts, z.th
+	opts := &z.opts
 	if len(g.Outputs) == 0 || len(g.Inputs) == 0 {
 		return nil, fmt.Errorf("interact: the gain set from %s has %d outputs and %d inputs: need at least one of each", sourceName(g), len(g.Outputs), len(g.Inputs))
 	}
@@ -100,9 +101,10 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 	if z.fy, err = g.scaledInto(opts.Scaling, k, kd, z.fy); err != nil {
 		return nil, err
 	}
+	kr := k.RawMatrix()
 	for i := range g.Outputs {
-		for j := range g.Inputs {
-			if v := k.At(i, j); isInfOrNaN(v) {
+		for j, v := range kr.Data[i*kr.Stride : i*kr.Stride+n0] {
+			if v-v != 0 { // ±Inf or NaN
 				return nil, fmt.Errorf("interact: gain %s/%s is %v: every gain must be a finite number", g.Outputs[i].Name, g.Inputs[j].Name, v)
 			}
 		}
@@ -153,6 +155,25 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		a.Kd = &z.kd
 	}
 	n := len(rows)
+	maxOut := opts.MaxPairings
+	if maxOut == 0 {
+		maxOut = 10
+	}
+	if n == 2 {
+		ok, err := z.matrix2()
+		if err != nil {
+			return nil, err
+		}
+		if ok {
+			if opts.Brief && (maxOut < 0 || maxOut >= 2) {
+				z.pairings2()
+				return a, nil
+			}
+			return z.rank(a, n, maxOut)
+		}
+	}
+
+	z.shaped2 = false // the storage below may change shape
 
 	// One LU of K gives the RGA, det K and (with disturbances) K⁻¹Kd; one
 	// SVD gives the singular values and the singularity test of the
@@ -176,17 +197,25 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		return nil, err
 	}
 	a.Dl, a.Dr = z.dl, z.dr
+	z.noteCondition()
+	return z.rank(a, n, maxOut)
+}
+
+// noteCondition adds the note on γ* when it exceeds CondHigh.
+func (z *Analyzer) noteCondition() {
+	a, th := &z.a, z.th
 	if a.MinCond > th.CondHigh {
 		z.notes = append(z.notes[:0], fmt.Sprintf("K is ill-conditioned whatever the scaling: minimised condition number γ* = %s > %s. Some output combinations need input moves %s times larger than others, and the pairing conclusions are sensitive to errors in the gains.", fmtNum(a.MinCond), fmtNum(th.CondHigh), fmtNum(a.MinCond)))
 		a.Notes = z.notes
 	}
+}
 
+// rank screens, details and ranks the pairings of the n×n analysis a, whose
+// matrices are in place, keeping the best maxOut (all when negative).
+func (z *Analyzer) rank(a *Analysis, n, maxOut int) (*Analysis, error) {
+	opts, th := &z.opts, z.th
 	sc := &z.sc
 	sc.init(a, th, &z.kinv, &z.kinvD, &z.iw, opts.Brief)
-	maxOut := opts.MaxPairings
-	if maxOut == 0 {
-		maxOut = 10
-	}
 	z.cands = z.cands[:0]
 	if n <= MaxEnumerate && (maxOut < 0 || maxOut >= factorial(n)) {
 		if !opts.Brief {

@@ -104,10 +104,14 @@ func scaleInto(out, m *mat.Dense, cols []Signal, role string, s Scaling, fy []fl
 	r, c := m.Dims()
 	reshape(out, r, c)
 	if s == ScaleNone {
-		// Every factor is 1 and v*1/1 is v: copy.
+		// Every factor is 1 and v*1/1 is v: copy, element by element
+		// (rows of a gain matrix are too short for copy's call to pay).
 		src, dst := m.RawMatrix(), out.RawMatrix()
 		for i := 0; i < r; i++ {
-			copy(dst.Data[i*dst.Stride:i*dst.Stride+c], src.Data[i*src.Stride:i*src.Stride+c])
+			d := dst.Data[i*dst.Stride : i*dst.Stride+c]
+			for j, v := range src.Data[i*src.Stride : i*src.Stride+c] {
+				d[j] = v
+			}
 		}
 		return nil
 	}

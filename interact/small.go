@@ -364,6 +364,12 @@ func svd2(s, u0, u1, v0, v1 []float64, k *mat.Dense) bool {
 	if !in2Range(a00, a01, a10, a11) || (a00 == 0 && a01 == 0 && a10 == 0 && a11 == 0) {
 		return false
 	}
+	return svd2Of(s, u0, u1, v0, v1, a00, a01, a10, a11)
+}
+
+// svd2Of is svd2 of [a00 a01; a10 a11], which the caller has checked to be
+// in range and not zero.
+func svd2Of(s, u0, u1, v0, v1 []float64, a00, a01, a10, a11 float64) bool {
 	d0, e0, d1, hv, tau := bidiag2(a00, a01, a10, a11)
 	if tau != 0 && hv == 0 {
 		return false // underflow inside the reflector: leave it to LAPACK
@@ -383,12 +389,14 @@ func svd2(s, u0, u1, v0, v1 []float64, k *mat.Dense) bool {
 	sminoa := math.Abs(d0)
 	if sminoa != 0 {
 		mu := math.Abs(d1) * (sminoa / (sminoa + math.Abs(e0)))
-		sminoa = math.Min(sminoa, mu)
+		if mu < sminoa { // math.Min: both are >= +0
+			sminoa = mu
+		}
 	}
 	sminoa /= math.Sqrt(2)
-	thresh := math.Max(tol*sminoa, float64(6*2*2)*unfl)
+	thresh := maxPos(tol*sminoa, float64(6*2*2)*unfl) // both > +0 or the first +0
 	if !(math.Abs(e0) <= thresh) {
-		ssmin, ssmax, snr, csr, snl, csl := impl.Dlasv2(d0, e0, d1)
+		ssmin, ssmax, snr, csr, snl, csl := dlasv2(d0, e0, d1)
 		d1, d0 = ssmin, ssmax
 		vt00, vt10 = csr*vt00+snr*vt10, csr*vt10-snr*vt00
 		vt01, vt11 = csr*vt01+snr*vt11, csr*vt11-snr*vt01
@@ -432,4 +440,109 @@ func condNone2(m00, m01, m10, m11 float64) (ssmin, ssmax float64, ok bool) {
 	}
 	ssmin, ssmax = impl.Dlas2(d0, e0, d1)
 	return ssmin, ssmax, true
+}
+
+// dlasv2 is gonum's Dlasv2 (the SVD of the upper triangular [f g; 0 h])
+// written out for svd2Of, with math.Hypot replaced by the inlined hypot
+// (the same operations) and the branch for g = 0, which svd2Of never
+// passes, kept. Expressions are as gonum writes them, so that a compiler
+// fuses (or not) exactly what it fuses there.
+func dlasv2(f, g, h float64) (ssmin, ssmax, snr, csr, snl, csl float64) {
+	const dlamchE = 0x1p-53
+	ft := f
+	fa := math.Abs(ft)
+	ht := h
+	ha := math.Abs(h)
+	pmax := 1
+	swap := ha > fa
+	if swap {
+		pmax = 3
+		ft, ht = ht, ft
+		fa, ha = ha, fa
+	}
+	gt := g
+	ga := math.Abs(gt)
+	var clt, crt, slt, srt float64
+	if ga == 0 {
+		ssmin = ha
+		ssmax = fa
+		clt = 1
+		crt = 1
+		slt = 0
+		srt = 0
+	} else {
+		gasmall := true
+		if ga > fa {
+			pmax = 2
+			if (fa / ga) < dlamchE {
+				gasmall = false
+				ssmax = ga
+				if ha > 1 {
+					ssmin = fa / (ga / ha)
+				} else {
+					ssmin = (fa / ga) * ha
+				}
+				clt = 1
+				slt = ht / gt
+				srt = 1
+				crt = ft / gt
+			}
+		}
+		if gasmall {
+			d := fa - ha
+			l := d / fa
+			if d == fa {
+				l = 1
+			}
+			m := gt / ft
+			t := 2 - l
+			s := hypot(t, m)
+			var r float64
+			if l == 0 {
+				r = math.Abs(m)
+			} else {
+				r = hypot(l, m)
+			}
+			a := 0.5 * (s + r)
+			ssmin = ha / a
+			ssmax = fa * a
+			if m == 0 {
+				if l == 0 {
+					t = math.Copysign(2, ft) * math.Copysign(1, gt)
+				} else {
+					t = gt/math.Copysign(d, ft) + m/t
+				}
+			} else {
+				t = (m/(s+t) + m/(r+l)) * (1 + a)
+			}
+			l = hypot(t, 2)
+			crt = 2 / l
+			srt = t / l
+			clt = (crt + srt*m) / a
+			slt = (ht / ft) * srt / a
+		}
+	}
+	if swap {
+		csl = srt
+		snl = crt
+		csr = slt
+		snr = clt
+	} else {
+		csl = clt
+		snl = slt
+		csr = crt
+		snr = srt
+	}
+	var tsign float64
+	switch pmax {
+	case 1:
+		tsign = math.Copysign(1, csr) * math.Copysign(1, csl) * math.Copysign(1, f)
+	case 2:
+		tsign = math.Copysign(1, snr) * math.Copysign(1, csl) * math.Copysign(1, g)
+	case 3:
+		tsign = math.Copysign(1, snr) * math.Copysign(1, snl) * math.Copysign(1, h)
+	}
+	ssmax = math.Copysign(ssmax, tsign)
+	ssmin = math.Copysign(ssmin, tsign*math.Copysign(1, f)*math.Copysign(1, h))
+	return ssmin, ssmax, snr, csr, snl, csl
 }

@@ -89,3 +89,30 @@ func BenchmarkCompileColumn200x4(b *testing.B)       { compileBench(b, multiColu
 func BenchmarkOutputGradientsColumn200x4(b *testing.B) {
 	outputGradientsBench(b, multiColumn(200, 100))
 }
+
+// templateSystem loads and expands a library template, as models_test.go
+// does, for benchmarks on the real model files (whose equations use defines).
+func templateSystem(b *testing.B, name string) *model.System {
+	f, err := model.LoadFile("../library/templates/" + name)
+	if err != nil {
+		b.Fatalf("load: %v", err)
+	}
+	sys, err := f.Expand(nil)
+	if err != nil {
+		b.Fatalf("expand: %v", err)
+	}
+	return sys
+}
+
+func BenchmarkResidualTemplateColumn(b *testing.B) {
+	residualBench(b, templateSystem(b, "column.yaml"))
+}
+func BenchmarkJacobianTemplateColumn(b *testing.B) {
+	jacobianBench(b, templateSystem(b, "column.yaml"))
+}
+func BenchmarkResidualJacobianTemplateColumn(b *testing.B) {
+	residualJacobianBench(b, templateSystem(b, "column.yaml"))
+}
+func BenchmarkParamJacobianTemplateColumn(b *testing.B) {
+	paramJacobianBench(b, templateSystem(b, "column.yaml"))
+}

@@ -15,8 +15,12 @@ import (
 // This file keeps the tape interpreter as it was before the tapes were
 // lowered (one op per load, per-tape value and adjoint slots, commit
 // da14112), as a reference: the fast evaluator must give the same bits for
-// every value, every derivative and every partly filled destination, and
-// the same errors.
+// every value, every derivative but dF/dx and every partly filled
+// destination, and the same errors. dF/dx (Jacobian, ResidualJacobian)
+// preaccumulates shared subexpressions (preacc.go), which sums the same
+// partial derivatives in another order: it must agree to 1e-13 relative to
+// the largest entry of its row, and poisoned entries left unfilled must be
+// left alike.
 
 func refForward(t *tape, v, x, p []float64) float64 {
 	v = v[:len(t.ops)]
@@ -291,6 +295,39 @@ func sameBits(a, b []float64) (int, bool) {
 	return 0, true
 }
 
+// jacTol is the agreement asked of dF/dx with the reference, relative to
+// the largest entry of the row.
+const jacTol = 1e-13
+
+// rowsAgree reports the first entry (and its row) where got and want, of
+// the same pattern, differ by more than tol times the largest magnitude in
+// want's row. Entries that are not finite (the NaN a destination was
+// poisoned with, left unfilled) must have the same bits.
+func rowsAgree(got, want *Sparse, tol float64) (int, int, bool) {
+	for r := range want.Rows {
+		lo, hi := want.RowPtr[r], want.RowPtr[r+1]
+		var scale float64
+		for _, w := range want.Val[lo:hi] {
+			if finite(w) {
+				scale = max(scale, math.Abs(w))
+			}
+		}
+		for i := lo; i < hi; i++ {
+			g, w := got.Val[i], want.Val[i]
+			if !finite(g) || !finite(w) {
+				if math.Float64bits(g) != math.Float64bits(w) {
+					return i, r, false
+				}
+				continue
+			}
+			if math.Abs(g-w) > tol*scale {
+				return i, r, false
+			}
+		}
+	}
+	return 0, 0, true
+}
+
 func errString(err error) string {
 	if err == nil {
 		return "<nil>"
@@ -328,17 +365,27 @@ func compareBits(t *testing.T, prog *Program, e *Eval, ref *refEval, x, p []floa
 		check(g.name, g.fn(got, x, p), ref.values(want, g.tapes, x, p), got, want)
 	}
 
+	checkJac := func(what string, gotErr, wantErr error, got, want *Sparse) {
+		t.Helper()
+		if g, w := errString(gotErr), errString(wantErr); g != w {
+			t.Errorf("%s: error %q, reference %q", what, g, w)
+		}
+		if i, j, ok := rowsAgree(got, want, jacTol); !ok {
+			g, w := got.Val[i], want.Val[i]
+			t.Errorf("%s: element %d (row %d) is %v (%#x), reference %v (%#x)", what, i, j, g, math.Float64bits(g), w, math.Float64bits(w))
+		}
+	}
 	f, wf := nanSlice(neq), nanSlice(neq)
 	jac, wjac := prog.NewJacobian(), prog.NewJacobian()
 	copy(jac.Val, nanSlice(len(jac.Val)))
 	copy(wjac.Val, jac.Val)
 	err, werr := e.ResidualJacobian(f, jac, x, p), ref.residualJacobian(wf, wjac, x, p)
 	check("ResidualJacobian f", err, werr, f, wf)
-	check("ResidualJacobian J", err, werr, jac.Val, wjac.Val)
+	checkJac("ResidualJacobian J", err, werr, jac, wjac)
 	copy(jac.Val, nanSlice(len(jac.Val)))
 	copy(wjac.Val, jac.Val)
 	err, werr = e.Jacobian(jac, x, p), ref.residualJacobian(nil, wjac, x, p)
-	check("Jacobian", err, werr, jac.Val, wjac.Val)
+	checkJac("Jacobian", err, werr, jac, wjac)
 
 	// Every parameter, in reverse order to exercise the column mapping.
 	cols := make([]int, prog.NumParams())
@@ -387,6 +434,7 @@ func bitSystems(t *testing.T) map[string]*model.System {
 		"binaryColumn(41)": binaryColumn(41, 21),
 		"multiColumn(30)":  multiColumn(30, 15),
 		"nestedOps":        nestedOps(),
+		"sharedOps":        sharedOps(),
 	}
 	var files []string
 	for _, pat := range []string{"../testdata/models/*.yaml", "../library/templates/*.yaml"} {

@@ -20,6 +20,8 @@ type Program struct {
 	defs    []*tape
 	checks  []*tape
 	pattern *Sparse // structure of dF/dx, Val nil
+	eqOut   []int32 // index in w of each equation's residual
+	eqAdj   []int32 // index in d of each entry of dF/dx, in the order of pattern
 	maxOps  int     // longest tape (source form), for describing errors
 	consts  []float64
 
@@ -93,10 +95,13 @@ func Compile(sys *model.System) (*Program, error) {
 			pool.collect(t)
 		}
 	}
+	for _, c := range preConstants {
+		pool.add(c)
+	}
 	prog.consts = pool.vals
 	prog.base = prog.nx + prog.np + len(pool.vals)
 	prog.size = prog.base
-	lower := func(ts []*tape) (*fwdProgram, revSweeps) {
+	lower := func(ts []*tape, pre bool) (*fwdProgram, revSweeps) {
 		l := newLowering(prog.nx, prog.np, &pool)
 		for _, t := range ts {
 			l.tape(t)
@@ -104,12 +109,21 @@ func Compile(sys *model.System) (*Program, error) {
 		f := l.schedule()
 		prog.size = max(prog.size, prog.base+len(f.code))
 		prog.dsize = max(prog.dsize, int(l.dnext))
-		return f, revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP), sweeps: l.sweeps}
+		rev := revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP), sweeps: l.sweeps}
+		if pre {
+			rev.tan, rev.xPre, rev.npre = l.preaccumulate(f)
+			if rev.tan != nil {
+				rev.tanBase = prog.base + len(f.code)
+				prog.size = max(prog.size, rev.tanBase+len(rev.tan.code))
+			}
+		}
+		rev.seeds = newSeeds(ts) // after preaccumulate, which adds to the zero lists
+		return f, rev
 	}
-	prog.eqFwd, prog.eqRev = lower(prog.eqs)
-	prog.outFwd, prog.outRev = lower(prog.outs)
-	prog.defFwd, _ = lower(prog.defs) // reverse sweeps kept only for describing errors
-	prog.chkFwd, _ = lower(prog.checks)
+	prog.eqFwd, prog.eqRev = lower(prog.eqs, true) // dF/dx: preaccumulated
+	prog.outFwd, prog.outRev = lower(prog.outs, false)
+	prog.defFwd, _ = lower(prog.defs, false) // reverse sweeps kept only for describing errors
+	prog.chkFwd, _ = lower(prog.checks, false)
 
 	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
 	for i, t := range prog.eqs {
@@ -119,14 +133,29 @@ func Compile(sys *model.System) (*Program, error) {
 		pat.RowPtr[i+1] = len(pat.ColIdx)
 	}
 	prog.pattern = pat
+	for _, t := range prog.eqs {
+		prog.eqOut = append(prog.eqOut, t.out)
+		for k := range t.vars {
+			prog.eqAdj = append(prog.eqAdj, t.adj0+int32(k))
+		}
+	}
 	return prog, nil
 }
 
 // revSweeps are the reverse sweeps of a group of tapes in batches, all steps
 // or only those whose result depends on x or on p.
 type revSweeps struct {
+	seeds
 	all, x, p []batch
 	sweeps    []sweep // every step of every tape, for paramBatches
+
+	// The x sweeps stopping at preaccumulated values (xPre), after the
+	// tangent program tan, whose temporaries start at w[tanBase], has run;
+	// nil when the group has nothing worth preaccumulating (preacc.go).
+	tan     *fwdProgram
+	tanBase int
+	xPre    []batch
+	npre    int // values preaccumulated
 }
 
 // maxErrors is the number of errors Compile reports before it stops.

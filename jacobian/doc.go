@@ -22,6 +22,16 @@
 // changes a number: every value and every derivative is the same operations
 // in the same order as the tape evaluated on its own, to the bit.
 //
+// The one exception is dF/dx (Jacobian, ResidualJacobian). A value shared
+// by several equations that depends on one or two unknowns (a define such
+// as a tray's vapour composition) has its derivatives computed once, by
+// forward-mode differentiation, and each equation's reverse sweep stops at
+// it instead of walking its operations again (preaccumulation). The same
+// partial derivatives are then summed in another order, so an entry may
+// differ from the tape's own sweep in its last bits. Where a value or a
+// derivative is not finite the full sweeps run instead, so errors are
+// unchanged.
+//
 // A Program is immutable and may be shared by many goroutines; each goroutine
 // evaluates through its own Eval, which holds the work buffers. Eval methods do
 // not allocate.

@@ -71,7 +71,7 @@ func (e *Eval) value(t *tape) (float64, error) {
 // caller may have run only those it needed), so that the adjoints of the
 // source form are all there to examine.
 func (e *Eval) derivFault(tapes []*tape, rev *revSweeps, t *tape, wrt string) *EvalError {
-	reverse(tapes, rev.all, e.d, e.w)
+	reverse(&rev.seeds, rev.all, e.d, e.w)
 	return t.derivFault(gather(e.vals, e.w, t.slot, len(t.ops)), gather(e.adj, e.d, t.aslot, len(t.aslot)), wrt)
 }
 
@@ -136,25 +136,103 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
 	}
 	forward(e.prog.eqFwd, e.w, e.prog.base)
-	reverse(e.prog.eqs, e.prog.eqRev.x, e.d, e.w)
+	rev := &e.prog.eqRev
+	pre := rev.tan != nil
+	if pre {
+		forward(rev.tan, e.w, rev.tanBase)
+		pre = allFinite(e.w[rev.tanBase : rev.tanBase+len(rev.tan.code)])
+	}
+	if pre {
+		reverse(&rev.seeds, rev.xPre, e.d, e.w)
+		retry, err := e.jacobianRows(f, dst, true)
+		if !retry {
+			return err
+		}
+	}
+	// Nothing preaccumulated, or a tangent or a derivative that is not
+	// finite: the full sweeps decide, and describe what is wrong.
+	reverse(&rev.seeds, rev.x, e.d, e.w)
+	_, err := e.jacobianRows(f, dst, false)
+	return err
+}
+
+// jacobianRows copies the residuals into f (when not nil) and the
+// derivatives of the last reverse sweeps into dst.Val, checking both. When
+// a derivative is not finite it returns retry = true if pre (the sweeps
+// stopped at preaccumulated values, and the full sweeps should be run
+// instead), and an error describing it otherwise.
+func (e *Eval) jacobianRows(f []float64, dst *Sparse, pre bool) (retry bool, err error) {
+	// Everything finite (the common case): gather without looking further.
+	prog := e.prog
+	if gatherFinite(e.w, prog.eqOut) && gatherFinite(e.d, prog.eqAdj) {
+		if f != nil {
+			for i, k := range prog.eqOut {
+				f[i] = e.w[k]
+			}
+		}
+		for i, k := range prog.eqAdj {
+			dst.Val[i] = e.d[k]
+		}
+		return false, nil
+	}
+	pat := prog.pattern
 	for i, t := range e.prog.eqs {
 		r, err := e.value(t)
 		if err != nil {
-			return err
+			return false, err
 		}
 		if f != nil {
 			f[i] = r
 		}
 		row := dst.Val[pat.RowPtr[i]:pat.RowPtr[i+1]]
-		for k, d := range e.d[t.adj0 : int(t.adj0)+len(row)] {
-			if !finite(d) {
-				vr := t.vars[k]
-				return e.derivFault(e.prog.eqs, &e.prog.eqRev, t, e.prog.xNames[vr.index])
+		src := e.d[t.adj0 : int(t.adj0)+len(row)]
+		if !allFinite(src) {
+			if pre {
+				return true, nil
 			}
-			row[k] = d
+			k := 0
+			for finite(src[k]) {
+				k++
+			}
+			copy(row, src[:k])
+			return false, e.derivFault(e.prog.eqs, &e.prog.eqRev, t, e.prog.xNames[t.vars[k].index])
 		}
+		copy(row, src)
 	}
-	return nil
+	return false, nil
+}
+
+// gatherFinite reports whether every z[k] for k in idx is finite, as
+// allFinite does.
+func gatherFinite(z []float64, idx []int32) bool {
+	var s0, s1 float64
+	for len(idx) >= 2 {
+		s0 += z[idx[0]] - z[idx[0]]
+		s1 += z[idx[1]] - z[idx[1]]
+		idx = idx[2:]
+	}
+	for _, k := range idx {
+		s0 += z[k] - z[k]
+	}
+	return s0+s1 == 0
+}
+
+// allFinite reports whether every element of v is finite: f-f is 0 for a
+// finite f and NaN otherwise, and a sum with a NaN term is NaN. Four sums
+// run side by side, without a branch per element.
+func allFinite(v []float64) bool {
+	var s0, s1, s2, s3 float64
+	for len(v) >= 4 {
+		s0 += v[0] - v[0]
+		s1 += v[1] - v[1]
+		s2 += v[2] - v[2]
+		s3 += v[3] - v[3]
+		v = v[4:]
+	}
+	for _, f := range v {
+		s0 += f - f
+	}
+	return (s0+s1)+(s2+s3) == 0
 }
 
 // ParamJacobian sets column k of dst to dF/dp[cols[k]] at (x, p); dst has one
@@ -209,7 +287,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev 
 	case dx == nil:
 		steps = rev.p
 	}
-	reverse(tapes, steps, e.d, e.w)
+	reverse(&rev.seeds, steps, e.d, e.w)
 	for i, t := range tapes {
 		if _, err := e.value(t); err != nil {
 			return err

@@ -325,49 +325,7 @@ func group(sweeps []sweep) []batch {
 // same operation on the same operands); only the order in which independent
 // instructions run changes. It returns the program with its runs.
 func (l *lowering) schedule() *fwdProgram {
-	n := len(l.code)
-	level := make([]int32, n)
-	for k, o := range l.code {
-		for _, a := range []int32{o.a, o.b} {
-			if a >= l.base {
-				level[k] = max(level[k], level[a-l.base]+1)
-			}
-		}
-	}
-	order := make([]int, n)
-	for k := range order {
-		order[k] = k
-	}
-	slices.SortStableFunc(order, func(i, j int) int {
-		if c := cmp.Compare(level[i], level[j]); c != 0 {
-			return c
-		}
-		return cmp.Compare(l.code[i].code, l.code[j].code)
-	})
-	newIdx := make([]int32, n)
-	for k, old := range order {
-		newIdx[old] = int32(k)
-	}
-	re := func(i int32) int32 {
-		if i >= l.base {
-			return l.base + newIdx[i-l.base]
-		}
-		return i
-	}
-	f := &fwdProgram{code: make([]instr, n)}
-	for k, old := range order {
-		o := l.code[old]
-		o.a, o.b = re(o.a), re(o.b)
-		if o.a < 0 || o.b < 0 || o.a >= l.base+int32(k) || o.b >= l.base+int32(k) {
-			panic("jacobian: forward instruction reads a value not computed before it")
-		}
-		f.code[k] = o
-		if len(f.runs) > 0 && f.runs[len(f.runs)-1].code == o.code {
-			f.runs[len(f.runs)-1].n++
-		} else {
-			f.runs = append(f.runs, run{code: o.code, n: 1})
-		}
-	}
+	f, re := scheduleCode(l.code, l.base)
 	l.code = f.code
 	for _, t := range l.tapes {
 		for k, s := range t.slot {
@@ -383,4 +341,54 @@ func (l *lowering) schedule() *fwdProgram {
 	}
 	clear(l.cse) // indices are stale now; no tape may be added after schedule
 	return f
+}
+
+// scheduleCode orders code, whose instruction k writes w[base+k], by level
+// and op into runs, and returns the program with the map from an index in w
+// before the ordering to the index after it (indices below base are kept).
+func scheduleCode(code []instr, base int32) (*fwdProgram, func(int32) int32) {
+	n := len(code)
+	level := make([]int32, n)
+	for k, o := range code {
+		for _, a := range []int32{o.a, o.b} {
+			if a >= base {
+				level[k] = max(level[k], level[a-base]+1)
+			}
+		}
+	}
+	order := make([]int, n)
+	for k := range order {
+		order[k] = k
+	}
+	slices.SortStableFunc(order, func(i, j int) int {
+		if c := cmp.Compare(level[i], level[j]); c != 0 {
+			return c
+		}
+		return cmp.Compare(code[i].code, code[j].code)
+	})
+	newIdx := make([]int32, n)
+	for k, old := range order {
+		newIdx[old] = int32(k)
+	}
+	re := func(i int32) int32 {
+		if i >= base {
+			return base + newIdx[i-base]
+		}
+		return i
+	}
+	f := &fwdProgram{code: make([]instr, n)}
+	for k, old := range order {
+		o := code[old]
+		o.a, o.b = re(o.a), re(o.b)
+		if o.a < 0 || o.b < 0 || o.a >= base+int32(k) || o.b >= base+int32(k) {
+			panic("jacobian: forward instruction reads a value not computed before it")
+		}
+		f.code[k] = o
+		if len(f.runs) > 0 && f.runs[len(f.runs)-1].code == o.code {
+			f.runs[len(f.runs)-1].n++
+		} else {
+			f.runs = append(f.runs, run{code: o.code, n: 1})
+		}
+	}
+	return f, re
 }

@@ -31,6 +31,11 @@ const (
 	opAbs
 	opMin // min(a, b); ties go to a
 	opMax // max(a, b); ties go to a
+
+	// opChain is a reverse step only, of a sweep that stops at a
+	// preaccumulated value: the adjoint of an unknown receives g*w[vb], the
+	// value's derivative with respect to it (preacc.go).
+	opChain
 )
 
 func (c opcode) binary() bool {
@@ -232,19 +237,36 @@ func forwardOther(o instr, w unsafe.Pointer) float64 {
 	panic(fmt.Sprintf("jacobian: unknown opcode %d", o.code))
 }
 
-// reverse runs the adjoint sweeps of tapes, whose steps are batches, after
-// the forward program of their group: d receives the derivative of each
-// tape's result with respect to its temporaries, unknowns and parameters,
-// in the tape's region; w holds the values. Each adjoint is accumulated term
-// by term in the order of the source form's sweep, operand a before operand
-// b, starting from 0, and a step whose own adjoint is 0 is skipped, so every
-// derivative is the same number the source form gives.
-func reverse(tapes []*tape, batches []batch, d, w []float64) {
+// seeds are what a group's reverse sweeps start from, gathered from its
+// tapes: the adjoints to clear (each tape's zero list) and the adjoints of
+// the results, set to 1.
+type seeds struct {
+	zero, root []int32
+}
+
+func newSeeds(tapes []*tape) seeds {
+	var s seeds
 	for _, t := range tapes {
-		for _, z := range t.zero {
-			d[z] = 0
-		}
-		d[t.rootAdj] = 1
+		s.zero = append(s.zero, t.zero...)
+		s.root = append(s.root, t.rootAdj)
+	}
+	return s
+}
+
+// reverse runs the adjoint sweeps of a group's tapes, whose seeds are s and
+// whose steps are batches, after the forward program of their group: d
+// receives the derivative of each tape's result with respect to its
+// temporaries, unknowns and parameters, in the tape's region; w holds the
+// values. Each adjoint is accumulated term by term in the order of the
+// source form's sweep, operand a before operand b, starting from 0, and a
+// step whose own adjoint is 0 is skipped, so every derivative is the same
+// number the source form gives.
+func reverse(s *seeds, batches []batch, d, w []float64) {
+	for _, z := range s.zero {
+		d[z] = 0
+	}
+	for _, r := range s.root {
+		d[r] = 1
 	}
 	for b := range batches {
 		bt := &batches[b]
@@ -314,6 +336,15 @@ func reverseStep(code opcode, lanes []rlane, d, w unsafe.Pointer) {
 			o := &lanes[j]
 			if g := *at(d, o.tk); g != 0 {
 				*at(d, o.ta) = *at(d, o.sa) - g
+			} else {
+				skip(o, d)
+			}
+		}
+	case opChain:
+		for j := range lanes {
+			o := &lanes[j]
+			if g := *at(d, o.tk); g != 0 {
+				*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vb)
 			} else {
 				skip(o, d)
 			}
