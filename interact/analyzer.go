@@ -183,6 +183,11 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 	if err != nil {
 		return nil, &SingularError{What: "the gain matrix K (" + strings.Join(names(a.Outputs), ", ") + " by " + strings.Join(names(a.Inputs), ", ") + ")", Cond: float64(asCondition(err))}
 	}
+	if n == 2 {
+		// The 2x2 determinant, whichever path computes the rest.
+		kr := a.K.RawMatrix()
+		det = det2(kr.Data[0], kr.Data[1], kr.Data[kr.Stride], kr.Data[kr.Stride+1])
+	}
 	a.RGA = &z.rga
 	zeroRoundoff(a.RGA)
 	reshape(&z.sens, n, n)

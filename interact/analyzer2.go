@@ -76,7 +76,7 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	if cond := an * in; !(cond <= 1e10) {
 		return false, nil
 	}
-	det := float64(a00 * u11)
+	det := float64(a00 * u11) // det2's arithmetic
 	if swap {
 		det = -det
 	}
@@ -145,6 +145,28 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	a.MinCond, a.Dl, a.Dr = gamma, z.dl, z.dr
 	z.noteCondition()
 	return true, nil
+}
+
+// det2 is the determinant of [a00 a01; a10 a11] as the Analyzer computes
+// it: the product of the pivots of the elimination with partial pivoting
+// that gonum's LU does (Dgetf2's operations), negated for a row swap. It
+// is what mat.LU.LogDet gives but for the round trip through log and exp
+// (a few units in the last place). A zero first column gives 0.
+func det2(a00, a01, a10, a11 float64) float64 {
+	swap := math.Abs(a10) > math.Abs(a00)
+	if swap {
+		a00, a01, a10, a11 = a10, a11, a00, a01
+	}
+	if a00 == 0 {
+		return 0
+	}
+	l := a10 * (1 / a00)
+	u11 := a11 + float64((-1*l)*a01)
+	det := float64(a00 * u11)
+	if swap {
+		det = -det
+	}
+	return det
 }
 
 // shape2 makes the matrices and slices matrix2 fills 2x2 (2 long), and
