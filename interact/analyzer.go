@@ -26,8 +26,9 @@ func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
 
 // Analyzer analyses gain sets one after another with the same options,
 // reusing its storage, so that a caller analysing many operating points (an
-// envelope sweep) allocates next to nothing per point. Its results are bit
-// for bit those of Analyze.
+// envelope sweep) allocates next to nothing per point (nothing for a 2x2
+// brief analysis of every pairing). Its results are bit for bit those of
+// Analyze.
 //
 // The Analysis that Analyzer.Analyze returns, and everything it points to
 // (K, Kd, RGA, Sensitivity, SVD, Dl, Dr, the pairings and their slices and

@@ -12,11 +12,14 @@ import (
 // K⁻¹ and everything built on them (scores, rankings, verdicts, β) come from
 // the same two-row elimination as gonum's LU (inverseDet2's operations),
 // and U, Σ, V from the same Householder step and 2x2 rotation as gonum's SVD
-// (svd2). For a K with condition number κ, any other formula for λ_ij (say
-// k11·k22/(k11·k22 - k12·k21)) or for σ2 carries a different rounding error
-// of relative size about κ·2⁻⁵³, so its results would drift from the general
-// path's by up to 1e-4 at κ = 1e12; the elimination and the reflector are
-// cheap, so they are kept and the numbers stay bit for bit. What changes:
+// (svd2). For a K with condition number κ, any other formula for λ_ij or
+// for σ2 carries a different rounding error of relative size about κ·2⁻⁵³:
+// λ11 = k11·k22/(k11·k22 - k12·k21) was measured (200 000 seeded hardMatrix
+// 2x2s, |λ11| >= 1e-3) up to 1.9e-13 from the general path's already for
+// κ < 1e3 and 3e-5 at κ ~ 1e11. Where σ1 ≈ σ2 the directions U, V are not
+// determined by K at all, and only the same arithmetic gives the same ones.
+// The elimination and the reflector are cheap, so they are kept and those
+// numbers stay bit for bit. What changes:
 //
 //   - det K is the product of the pivots, u00·u11 with the sign of the row
 //     swap, instead of exp(log|u00| + log|u11|) as mat.LU.LogDet gives it
@@ -24,6 +27,8 @@ import (
 //   - γ* is the closed form of Grosdidier, Morari & Holt (1985) from the
 //     relative gains (see minCond2From) instead of the singular values of
 //     the balanced matrix, where the two agree to about 1e-14.
+//   - a brief analysis of every pairing ranks the two pairings itself
+//     (pairings2), with screener.detail's arithmetic.
 //   - ∞-norm condition numbers above 1e10, exactly singular K and entries
 //     out of in2Range's range take the general path as before, so the
 //     singularity decisions and their messages are the general path's.
