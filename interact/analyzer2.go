@@ -1,6 +1,7 @@
 package interact
 
 import (
+	"cmp"
 	"math"
 
 	"gonum.org/v1/gonum/mat"
@@ -272,8 +273,15 @@ func (z *Analyzer) pairings2() {
 	if res[1].Verdict == Rejected {
 		a.Rejected++
 	}
-	if compareResultsAt(&res[0], &res[1]) > 0 {
-		res[0], res[1] = res[1], res[0]
+	// compareResults: rejected last, then by score, then by pairing, and
+	// (0, 1) comes before (1, 0).
+	r0, r1 := &res[0], &res[1]
+	if rej0, rej1 := r0.Verdict == Rejected, r1.Verdict == Rejected; rej0 != rej1 {
+		if rej0 {
+			*r0, *r1 = *r1, *r0
+		}
+	} else if cmp.Compare(r0.Score, r1.Score) > 0 {
+		*r0, *r1 = *r1, *r0
 	}
 	a.Screened = 2
 	z.res = res
