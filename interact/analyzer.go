@@ -26,8 +26,9 @@ func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
 
 // Analyzer analyses gain sets one after another with the same options,
 // reusing its storage, so that a caller analysing many operating points (an
-// envelope sweep) allocates next to nothing per point. Its results are bit
-// for bit those of Analyze.
+// envelope sweep) allocates next to nothing per point (nothing for a 2x2
+// brief analysis of every pairing). Its results are bit for bit those of
+// Analyze.
 //
 // The Analysis that Analyzer.Analyze returns, and everything it points to
 // (K, Kd, RGA, Sensitivity, SVD, Dl, Dr, the pairings and their slices and
@@ -182,6 +183,11 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 	det, err := rgaDetWith(&z.lu, &z.rga, &z.kinv, a.K)
 	if err != nil {
 		return nil, &SingularError{What: "the gain matrix K (" + strings.Join(names(a.Outputs), ", ") + " by " + strings.Join(names(a.Inputs), ", ") + ")", Cond: float64(asCondition(err))}
+	}
+	if n == 2 {
+		// The 2x2 determinant, whichever path computes the rest.
+		kr := a.K.RawMatrix()
+		det = det2(kr.Data[0], kr.Data[1], kr.Data[kr.Stride], kr.Data[kr.Stride+1])
 	}
 	a.RGA = &z.rga
 	zeroRoundoff(a.RGA)

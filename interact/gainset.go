@@ -81,10 +81,15 @@ func (g *GainSet) scaledInto(s Scaling, k, kd *mat.Dense, fy []float64) ([]float
 	g.check()
 	var err error
 	fy = resizeFloats(fy, len(g.Outputs))
-	for i, o := range g.Outputs {
-		if s == ScaleNone {
-			break // every factor is 1; scaleInto copies
+	if s == ScaleNone {
+		// Every factor is 1 and v*1/1 is v: copy.
+		copyInto(k, g.K)
+		if g.Kd != nil {
+			copyInto(kd, g.Kd)
 		}
+		return fy, nil
+	}
+	for i, o := range g.Outputs {
 		if fy[i], err = scaleFactor(s, o, "output"); err != nil {
 			return fy, err
 		}
@@ -100,19 +105,25 @@ func (g *GainSet) scaledInto(s Scaling, k, kd *mat.Dense, fy []float64) ([]float
 	return fy, nil
 }
 
+// copyInto makes out a copy of m, reusing out's storage, element by
+// element (rows of a gain matrix are too short for copy's call to pay).
+func copyInto(out, m *mat.Dense) {
+	r, c := m.Dims()
+	reshape(out, r, c)
+	src, dst := m.RawMatrix(), out.RawMatrix()
+	for i := 0; i < r; i++ {
+		d := dst.Data[i*dst.Stride : i*dst.Stride+c]
+		for j, v := range src.Data[i*src.Stride : i*src.Stride+c] {
+			d[j] = v
+		}
+	}
+}
+
 func scaleInto(out, m *mat.Dense, cols []Signal, role string, s Scaling, fy []float64) error {
 	r, c := m.Dims()
 	reshape(out, r, c)
 	if s == ScaleNone {
-		// Every factor is 1 and v*1/1 is v: copy, element by element
-		// (rows of a gain matrix are too short for copy's call to pay).
-		src, dst := m.RawMatrix(), out.RawMatrix()
-		for i := 0; i < r; i++ {
-			d := dst.Data[i*dst.Stride : i*dst.Stride+c]
-			for j, v := range src.Data[i*src.Stride : i*src.Stride+c] {
-				d[j] = v
-			}
-		}
+		copyInto(out, m)
 		return nil
 	}
 	for j := 0; j < c; j++ {

@@ -165,6 +165,11 @@ func Niederlinski(k mat.Matrix, p Pairing) float64 {
 		panic(mat.ErrSquare)
 	}
 	p.mustBePermutation(n)
+	if n == 2 {
+		// det2, as the Analyzer computes det K, so that this is the
+		// Analysis's NI of p bit for bit when K is unscaled.
+		return niederlinski(k, p, det2(k.At(0, 0), k.At(0, 1), k.At(1, 0), k.At(1, 1)))
+	}
 	var lu mat.LU
 	lu.Factorize(k)
 	return niederlinski(k, p, lu.Det())

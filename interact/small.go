@@ -16,8 +16,10 @@ import (
 // operating point, written to reuse their storage. Each computes bit for
 // bit what gonum's mat.LU and mat.SVD compute (the same LAPACK routines with
 // the same arguments, or for 2x2 the same arithmetic written out), so that an
-// Analyzer gives exactly the numbers of the allocating code it replaces; the
-// tests compare them on many seeded random matrices.
+// Analyzer gives exactly the numbers of the allocating code it replaces
+// (for a 2x2 K all but det K, the Niederlinski indices and γ*, which differ
+// in the last bits: see analyzer2.go); the tests compare them on many
+// seeded random matrices.
 
 var impl gonum.Implementation
 
@@ -386,16 +388,23 @@ func svd2Of(s, u0, u1, v0, v1 []float64, a00, a01, a10, a11 float64) bool {
 	// Dbdsqr, n = 2, upper.
 	const unfl = 0x1p-1022
 	tol := dbdsqrTol
-	sminoa := math.Abs(d0)
-	if sminoa != 0 {
-		mu := math.Abs(d1) * (sminoa / (sminoa + math.Abs(e0)))
-		if mu < sminoa { // math.Min: both are >= +0
-			sminoa = mu
+	// Dbdsqr rotates unless |e0| <= thresh. thresh is at most
+	// max(tol·|d0|, 24·unfl) (sminoa <= |d0|/√2), so an |e0| above that
+	// decides without thresh's divisions.
+	rotate := math.Abs(e0) > tol*math.Abs(d0) && math.Abs(e0) > float64(6*2*2)*unfl
+	if !rotate {
+		sminoa := math.Abs(d0)
+		if sminoa != 0 {
+			mu := math.Abs(d1) * (sminoa / (sminoa + math.Abs(e0)))
+			if mu < sminoa { // math.Min: both are >= +0
+				sminoa = mu
+			}
 		}
+		sminoa /= math.Sqrt(2)
+		thresh := maxPos(tol*sminoa, float64(6*2*2)*unfl) // both > +0 or the first +0
+		rotate = !(math.Abs(e0) <= thresh)
 	}
-	sminoa /= math.Sqrt(2)
-	thresh := maxPos(tol*sminoa, float64(6*2*2)*unfl) // both > +0 or the first +0
-	if !(math.Abs(e0) <= thresh) {
+	if rotate {
 		ssmin, ssmax, snr, csr, snl, csl := dlasv2(d0, e0, d1)
 		d1, d0 = ssmin, ssmax
 		vt00, vt10 = csr*vt00+snr*vt10, csr*vt10-snr*vt00
