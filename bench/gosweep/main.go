@@ -98,15 +98,9 @@ func run(which, root string, points bool) error {
 	if err != nil {
 		return err
 	}
-	recs := make([]*sweep.Record, 0, prob.Plan.Len()) // Run makes a new record for every point
-	err = sweep.Run(ctx, prob, &sweep.Options{Workers: 1}, func(r *sweep.Record) error {
-		recs = append(recs, r)
-		return nil
-	})
-	elapsed := time.Since(t0).Seconds()
-	if err != nil {
-		return err
-	}
+	// Keep what the peer keeps for each point (axis values, outputs, K,
+	// RGA, NI of the diagonal pairing), as plain numbers: a record's slices
+	// would leave the garbage collector a growing heap of pointers to scan.
 	h := prob.Header
 	// The peer's NI is of the diagonal pairing; find it among the pairings.
 	diag := -1
@@ -115,34 +109,64 @@ func run(which, root string, points bool) error {
 			diag = k
 		}
 	}
+	no, ni, na := len(h.Outputs), len(h.Inputs), len(h.Axes)
+	width := na + no + 2*no*ni + 1
+	kept := make([]float64, 0, prob.Plan.Len()*width)
+	var idx []int
+	var bad error
+	err = sweep.Run(ctx, prob, &sweep.Options{Workers: 1}, func(r *sweep.Record) error {
+		if !r.Converged || r.RGA == nil {
+			if bad == nil {
+				bad = fmt.Errorf("point %d: %s", r.Index, r.Reason)
+			}
+			return nil
+		}
+		idx = append(idx, r.Index)
+		kept = append(kept, r.Values...)
+		kept = append(kept, r.Outputs...)
+		kept = append(kept, r.K...)
+		kept = append(kept, r.RGA...)
+		kept = append(kept, r.NI[diag])
+		return nil
+	})
+	elapsed := time.Since(t0).Seconds()
+	if err == nil {
+		err = bad
+	}
+	if err != nil {
+		return err
+	}
+	point := func(k int) (vals, ys, kk, rg []float64, nidx float64) {
+		v := kept[k*width : (k+1)*width]
+		return v[:na], v[na : na+no], v[na+no : na+no+no*ni], v[na+no+no*ni : na+no+2*no*ni], v[width-1]
+	}
 	lo := func() [2]float64 { return [2]float64{math.Inf(1), math.Inf(-1)} }
-	rga, ni := lo(), lo()
-	ys := make([][2]float64, len(h.Outputs))
+	rga, nir := lo(), lo()
+	ys := make([][2]float64, no)
 	for i := range ys {
 		ys[i] = lo()
 	}
 	upd := func(r *[2]float64, v float64) { r[0], r[1] = math.Min(r[0], v), math.Max(r[1], v) }
-	for _, r := range recs {
-		if !r.Converged || r.RGA == nil {
-			return fmt.Errorf("point %d: %s", r.Index, r.Reason)
-		}
-		upd(&rga, r.RGA[0])
-		upd(&ni, r.NI[diag])
+	for k := range idx {
+		_, y, _, rg, n := point(k)
+		upd(&rga, rg[0])
+		upd(&nir, n)
 		for i := range ys {
-			upd(&ys[i], r.Outputs[i])
+			upd(&ys[i], y[i])
 		}
 	}
-	rng := map[string]any{"rga11": rga, "niederlinski": ni}
+	rng := map[string]any{"rga11": rga, "niederlinski": nir}
 	for i, o := range h.Outputs {
 		rng[o.Name] = ys[i]
 	}
 	enc := json.NewEncoder(os.Stdout)
-	enc.Encode(map[string]any{"model": which, "mode": "sweep", "points": len(recs), "range": rng,
-		"elapsed_s": elapsed, "points_per_s": float64(len(recs)) / elapsed})
+	enc.Encode(map[string]any{"model": which, "mode": "sweep", "points": len(idx), "range": rng,
+		"elapsed_s": elapsed, "points_per_s": float64(len(idx)) / elapsed})
 	if points {
-		for _, r := range recs {
-			enc.Encode(map[string]any{"model": which, "mode": "sweep_point", "i": r.Index,
-				h.Axes[0].Name: r.Values[0], h.Axes[1].Name: r.Values[1], "K": r.K, "rga": r.RGA, "niederlinski": r.NI[diag]})
+		for k, i := range idx {
+			vals, _, kk, rg, n := point(k)
+			enc.Encode(map[string]any{"model": which, "mode": "sweep_point", "i": i,
+				h.Axes[0].Name: vals[0], h.Axes[1].Name: vals[1], "K": kk, "rga": rg, "niederlinski": n})
 		}
 	}
 	return nil
