@@ -159,6 +159,7 @@ type part struct {
 	rows, cols []int
 	a          sparse.CSR
 	src        []int // a.Val[k] = jval[src[k]]
+	whole      bool  // src is the identity: the part is the whole system
 	lu         *sparse.LU
 }
 
@@ -548,6 +549,10 @@ func (s *solver) newPart(block int, rows, cols []int) *part {
 	for _, c := range cols {
 		s.colMap[c] = -1
 	}
+	pt.whole = len(pt.src) == len(s.jval)
+	for k, p := range pt.src {
+		pt.whole = pt.whole && p == k
+	}
 	return pt
 }
 
@@ -663,15 +668,22 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 				reason: fmt.Sprintf("no convergence in %d iterations (scaled residual %.3g)", s.opt.MaxIter, norm)}
 		}
 
-		// Newton direction: J d = -F on the part.
-		for k, p := range pt.src {
-			pt.a.Val[k] = s.jval[p]
+		// Newton direction: J d = -F on the part (the whole system's
+		// values are the Jacobian's as they are).
+		val := s.jval
+		if !pt.whole {
+			val = pt.a.Val
+			for k, p := range pt.src {
+				val[k] = s.jval[p]
+			}
 		}
 		var err error
 		if pt.lu == nil {
-			pt.lu, err = sparse.Factorize(&pt.a, nil)
+			a := pt.a
+			a.Val = val
+			pt.lu, err = sparse.Factorize(&a, nil)
 		} else {
-			err = pt.lu.RefactorValues(pt.a.Val)
+			err = pt.lu.RefactorValues(val)
 		}
 		if err != nil {
 			pt.lu = nil
@@ -752,7 +764,10 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 		d = dc
 		step := 0.0
 		for l, c := range pt.cols {
-			step = max(step, math.Abs(alpha*d[l])/s.typ[c])
+			// max(step, v) as the built-in gives it, NaN included.
+			if v := math.Abs(alpha*d[l]) / s.typ[c]; v > step || v != v {
+				step = v
+			}
 			x[c] = s.xtry[c]
 		}
 		s.iters++
