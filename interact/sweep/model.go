@@ -300,6 +300,7 @@ type modelWorker struct {
 	fp     *mat.Dense // dF/dp for the inputs, then the axes
 	dxda   []float64  // dx/dp of each axis at the last point analysed, axis by axis
 	xpred  []float64
+	m0, m1 []float64   // the predictor's dx/ds at both ends
 	fromT  tangentData // the tangent data of the point's start (setFrom)
 	fromOK bool
 	dydx   *mat.Dense
@@ -318,7 +319,7 @@ func (m *modelRun) newWorker() *modelWorker {
 	n, no, ni := len(m.sys.Unknowns), len(m.sys.Outputs), len(m.sys.Inputs)
 	w := &modelWorker{m: m, eval: m.prog.NewEval(),
 		fp: mat.NewDense(len(m.sys.Equations), len(m.pcols), nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil), k: mat.NewDense(no, ni, nil),
-		dxda: make([]float64, len(m.axes)*n), xpred: make([]float64, n),
+		dxda: make([]float64, len(m.axes)*n), xpred: make([]float64, n), m0: make([]float64, n), m1: make([]float64, n),
 		rhs: make([]float64, n), z: make([]float64, n), work: make([]float64, n), y: make([]float64, no)}
 	w.prob = &solve.Problem{
 		N: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx,
@@ -540,14 +541,21 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 		// neighbour), evaluated at s = c.
 		h00, h10 := 2*c*c*c-3*c*c+1, c*c*c-2*c*c+c
 		h01, h11 := -2*c*c*c+3*c*c, c*c*c-c*c
-		for j := range x {
-			m0, m1 := 0.0, 0.0 // dx/ds at both ends
-			for a := range w.m.axes {
-				g := t.pBack[a] - t.p[a]
-				m0 += t.dxdp[a*n+j] * g
-				m1 += t.dxBack[a*n+j] * g
+		// dx/ds at both ends, summed axis by axis.
+		m0, m1 := w.m0, w.m1
+		clear(m0)
+		clear(m1)
+		for a := range w.m.axes {
+			g := t.pBack[a] - t.p[a]
+			d0, d1 := t.dxdp[a*n:(a+1)*n], t.dxBack[a*n:(a+1)*n]
+			for j := range m0 {
+				m0[j] += d0[j] * g
+				m1[j] += d1[j] * g
 			}
-			x[j] += (h00-1)*from.X[j] + h10*m0 + h01*t.xBack[j] + h11*m1
+		}
+		xb, xf := t.xBack[:n], from.X[:n]
+		for j := range x {
+			x[j] += (h00-1)*xf[j] + h10*m0[j] + h01*xb[j] + h11*m1[j]
 		}
 	}
 	for j, v := range x {
