@@ -45,43 +45,12 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	if !in2Range4(k00, k01, k10, k11) {
 		return false, nil
 	}
-	// inverseDet2: Dgetf2's pivoting and elimination, Dgetrs on the identity.
-	a00, a01, a10, a11 := k00, k01, k10, k11
-	swap := math.Abs(a10) > math.Abs(a00)
-	if swap {
-		a00, a01, a10, a11 = a10, a11, a00, a01
-	}
-	if a00 == 0 {
+	// inverseDet2's LU and inverse.
+	b, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
+	if !ok {
 		return false, nil
 	}
-	l := a10 * (1 / a00)
-	u11 := a11 + float64((-1*l)*a01)
-	if u11 == 0 {
-		return false, nil
-	}
-	b00, b01, b10, b11 := 1.0, 0.0, 0.0, 1.0
-	if swap {
-		b00, b01, b10, b11 = b10, b11, b00, b01
-	}
-	if l != 0 {
-		b10 += float64(-l * b00)
-		b11 += float64(-l * b01)
-	}
-	t := 1 / u11
-	b10 *= t
-	b11 *= t
-	if a01 != 0 {
-		b00 += float64(-a01 * b10)
-		b01 += float64(-a01 * b11)
-	}
-	t = 1 / a00
-	b00 *= t
-	b01 *= t
-	an := maxPos(math.Abs(a00)+math.Abs(a01), math.Abs(a10)+math.Abs(a11))
-	in := maxPos(math.Abs(b00)+math.Abs(b01), math.Abs(b10)+math.Abs(b11))
-	if cond := an * in; !(cond <= 1e10) {
-		return false, nil
-	}
+	b00, b01, b10, b11 := b[0], b[1], b[2], b[3]
 	det := float64(a00 * u11) // det2's arithmetic
 	if swap {
 		det = -det

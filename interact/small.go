@@ -113,32 +113,24 @@ func (w *luWork) det() float64 {
 	return math.Exp(floats.Sum(w.logs)) * sign
 }
 
-// inverseDet2 is inverseDet of a 2x2 written out: gonum's Dgetf2 (partial
-// pivoting) and Dgetrs with the identity, operation for operation, and det
-// as LogDet gives it. ok is false (and nothing is written) when the matrix
-// is far from well conditioned or out of range: the general routine then
-// gives the condition estimate that decides. The condition number returned
-// is the exact ∞-norm one, at most 1e10, where gonum's estimate, a lower
-// bound of it, is surely below ConditionLimit as well.
-func inverseDet2(dst *mat.Dense, k *mat.Dense) (cond, det float64, ok bool) {
-	raw := k.RawMatrix()
-	a00, a01 := raw.Data[0], raw.Data[1]
-	a10, a11 := raw.Data[raw.Stride], raw.Data[raw.Stride+1]
-	if !in2Range(a00, a01, a10, a11) {
-		return 0, 0, false
-	}
+// lu2Inverse is gonum's Dgetf2 (partial pivoting) and Dgetrs with the
+// identity for the 2x2 [a00 a01; a10 a11], operation for operation: the
+// inverse b (row by row), U's pivots p0 and u11, whether the rows were
+// swapped, and the exact ∞-norm condition number. ok is false when a pivot
+// is zero or the condition number is above 1e10 (or not a number).
+func lu2Inverse(a00, a01, a10, a11 float64) (b [4]float64, p0, u11 float64, swap bool, cond float64, ok bool) {
 	// Dgetf2, column 0: Idamax picks the first largest |a_i0|.
-	swap := math.Abs(a10) > math.Abs(a00)
+	swap = math.Abs(a10) > math.Abs(a00)
 	if swap {
 		a00, a01, a10, a11 = a10, a11, a00, a01
 	}
 	if a00 == 0 {
-		return 0, 0, false
+		return b, 0, 0, false, 0, false
 	}
 	l := a10 * (1 / a00)
-	u11 := a11 + float64((-1*l)*a01)
+	u11 = a11 + float64((-1*l)*a01)
 	if u11 == 0 {
-		return 0, 0, false
+		return b, 0, 0, false, 0, false
 	}
 	// Dgetrs: B = P·I, then L (unit lower) and U solves, row by row.
 	b00, b01, b10, b11 := 1.0, 0.0, 0.0, 1.0
@@ -160,12 +152,35 @@ func inverseDet2(dst *mat.Dense, k *mat.Dense) (cond, det float64, ok bool) {
 	b00 *= t
 	b01 *= t
 	// Exact ∞-norm condition number of the original matrix.
+	// math.Max, not maxPos: a NaN from an overflowing inverse must fail the test.
 	an := math.Max(math.Abs(a00)+math.Abs(a01), math.Abs(a10)+math.Abs(a11))
 	in := math.Max(math.Abs(b00)+math.Abs(b01), math.Abs(b10)+math.Abs(b11))
 	cond = an * in
 	if !(cond <= 1e10) {
+		return b, 0, 0, false, 0, false
+	}
+	return [4]float64{b00, b01, b10, b11}, a00, u11, swap, cond, true
+}
+
+// inverseDet2 is inverseDet of a 2x2 written out: gonum's Dgetf2 (partial
+// pivoting) and Dgetrs with the identity, operation for operation, and det
+// as LogDet gives it. ok is false (and nothing is written) when the matrix
+// is far from well conditioned or out of range: the general routine then
+// gives the condition estimate that decides. The condition number returned
+// is the exact ∞-norm one, at most 1e10, where gonum's estimate, a lower
+// bound of it, is surely below ConditionLimit as well.
+func inverseDet2(dst *mat.Dense, k *mat.Dense) (cond, det float64, ok bool) {
+	raw := k.RawMatrix()
+	a00, a01 := raw.Data[0], raw.Data[1]
+	a10, a11 := raw.Data[raw.Stride], raw.Data[raw.Stride+1]
+	if !in2Range(a00, a01, a10, a11) {
 		return 0, 0, false
 	}
+	b, a00, u11, swap, cond, ok := lu2Inverse(a00, a01, a10, a11)
+	if !ok {
+		return 0, 0, false
+	}
+	b00, b01, b10, b11 := b[0], b[1], b[2], b[3]
 	// LogDet: sign from the diagonal and the swaps, magnitude through logs.
 	sign := 1.0
 	if a00 < 0 {

@@ -47,6 +47,18 @@ type SweepOptions struct {
 	Quiet   bool
 
 	onRecord func() // tests: called after each record is written
+	onPoint  func() // tests: called before a worker solves a point
+}
+
+// hookedWorker calls a test hook before each point it solves.
+type hookedWorker struct {
+	sweep.Worker
+	hook func()
+}
+
+func (w hookedWorker) Point(ctx context.Context, p []float64, from sweep.State, rec *sweep.Record) (sweep.State, error) {
+	w.hook()
+	return w.Worker.Point(ctx, p, from, rec)
 }
 
 // NewCmdSweep returns the sweep command. runF replaces the run function in tests.
@@ -201,6 +213,10 @@ func sweepRun(opts *SweepOptions) error {
 				return err
 			}
 		}
+	}
+	if opts.onPoint != nil {
+		newWorker := prob.NewWorker
+		prob.NewWorker = func() sweep.Worker { return hookedWorker{newWorker(), opts.onPoint} }
 	}
 	total := len(prob.Plan.PointsOf(shard)) - len(done)
 	bar := newProgress(f, opts.Quiet, total)

@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"sync/atomic"
 	"testing"
 
 	"github.com/loopwright/loopwright/cmd/internal/cli"
@@ -30,8 +31,14 @@ func factory(ctx context.Context) (*cli.Factory, *bytes.Buffer) {
 // each record written.
 func run(t *testing.T, ctx context.Context, args []string, hook func()) (string, error) {
 	t.Helper()
+	return runHooked(t, ctx, args, hook, nil)
+}
+
+// runHooked is run with a second hook, called before a worker solves a point.
+func runHooked(t *testing.T, ctx context.Context, args []string, onRecord, onPoint func()) (string, error) {
+	t.Helper()
 	f, out := factory(ctx)
-	cmd := NewCmdSweep(f, func(o *SweepOptions) error { o.onRecord = hook; return sweepRun(o) })
+	cmd := NewCmdSweep(f, func(o *SweepOptions) error { o.onRecord, o.onPoint = onRecord, onPoint; return sweepRun(o) })
 	cmd.SetArgs(args)
 	cmd.SetOut(out)
 	cmd.SetErr(out)
@@ -114,9 +121,11 @@ func TestSweepKillAndResume(t *testing.T) {
 
 		part := filepath.Join(dir, "part."+ext)
 		ctx, cancel := context.WithCancel(context.Background())
-		n := 0
-		_, err = run(t, ctx, args("--out", part, "--summary", filepath.Join(dir, "part.json"), "-j", "2"), func() {
-			if n++; n == 5 {
+		// Cancel as the 30th point starts: the workers stop before their
+		// next point, so the run stops before the end however fast they are.
+		var started atomic.Int64
+		_, err = runHooked(t, ctx, args("--out", part, "--summary", filepath.Join(dir, "part.json"), "-j", "2"), nil, func() {
+			if started.Add(1) == 30 {
 				cancel()
 			}
 		})
@@ -129,7 +138,7 @@ func TestSweepKillAndResume(t *testing.T) {
 		}
 		got, _ := os.ReadFile(part)
 		if lines := strings.Count(string(got), "\n"); lines < 5 {
-			t.Errorf("%s: only %d lines on disk after 5 points", ext, lines)
+			t.Errorf("%s: only %d lines on disk after 30 points", ext, lines)
 		}
 		// A half-written last line, as a kill -9 during a write leaves it.
 		os.WriteFile(part, append(got, []byte("{\"i\":99,\"at\"")...), 0o644)
