@@ -109,7 +109,7 @@ func csvColumns(h *Header) []string {
 	for _, p := range h.Pairings {
 		cols = append(cols, "pass "+p.Label)
 	}
-	return cols
+	return append(cols, "outside")
 }
 
 func fmtFloat(b []byte, v float64) []byte { return strconv.AppendFloat(b, v, 'g', -1, 64) }
@@ -158,6 +158,8 @@ func appendCSV(b []byte, h *Header, r *Record) []byte {
 			b = strconv.AppendBool(b, r.Pass[k])
 		}
 	}
+	b = append(b, ',')
+	b = appendCSVField(b, strings.Join(r.Outside, ";"))
 	return append(b, '\n')
 }
 
@@ -273,6 +275,16 @@ func appendJSON(b []byte, h *Header, r *Record) []byte {
 			b = strconv.AppendBool(b, r.Pass[k])
 		}
 		b = append(b, '}')
+	}
+	if r.Outside != nil {
+		b = append(b, `,"outside":[`...)
+		for k, name := range r.Outside {
+			if k > 0 {
+				b = append(b, ',')
+			}
+			b = appendJSONString(b, name)
+		}
+		b = append(b, ']')
 	}
 	return append(b, "}\n"...)
 }
@@ -410,7 +422,7 @@ func parseCSV(h *Header, text []byte) (Record, error) {
 		return r, err
 	}
 	no, ni, np, na := len(h.Outputs), len(h.Inputs), len(h.Pairings), len(h.Axes)
-	want := 1 + na + 3 + no + 2*no*ni + 3 + 2*np
+	want := 1 + na + 3 + no + 2*no*ni + 3 + 2*np + 1
 	if len(f) != want {
 		return r, fmt.Errorf("%d fields, want %d", len(f), want)
 	}
@@ -464,6 +476,9 @@ func parseCSV(h *Header, text []byte) (Record, error) {
 			return r, err
 		}
 	}
+	if s := next(); s != "" {
+		r.Outside = strings.Split(s, ";")
+	}
 	return r, perr
 }
 
@@ -502,6 +517,7 @@ func parseJSON(h *Header, text []byte) (Record, error) {
 		Best       string
 		NI         map[string]jnum `json:"ni"`
 		Pass       map[string]bool
+		Outside    []string
 	}
 	r := Record{Det: math.NaN(), Cond: math.NaN()}
 	dec := json.NewDecoder(bytes.NewReader(text))
@@ -513,6 +529,9 @@ func parseJSON(h *Header, text []byte) (Record, error) {
 		return r, fmt.Errorf("no point number \"i\"")
 	}
 	r.Index, r.Converged, r.Iterations, r.Reason, r.Best = *w.I, w.Converged, w.Iterations, w.Reason, w.Best
+	if len(w.Outside) > 0 {
+		r.Outside = w.Outside
+	}
 	named := func(m map[string]jnum, names []string) ([]float64, error) {
 		if m == nil {
 			return nil, nil

@@ -192,3 +192,56 @@ func TestNewRecordDisplayUnits(t *testing.T) {
 		t.Errorf("display values %v, want [160 1.1]", r.Values)
 	}
 }
+
+// TestOutsideChecksRoundTrip: points outside the model's checks keep the
+// checks' names through both file formats, and the summary lists them
+// apart and leaves them out of the pairings' figures.
+func TestOutsideChecksRoundTrip(t *testing.T) {
+	out := func(p []float64) []string {
+		switch {
+		case p[0] > 1.5 && p[1] > 1.0:
+			return []string{"bottoms", "antoine_ben"}
+		case p[0] > 1.5:
+			return []string{"bottoms"}
+		}
+		return nil
+	}
+	for _, f := range []Format{CSV, JSONL} {
+		prob := fakeProblem(Design{}, 5, 4)
+		prob.NewWorker = func() Worker { return &fakeWorker{outside: out} }
+		data, recs := runAll(t, prob, nil, f)
+		file, err := Read("sweep", bytes.NewReader(data))
+		if err != nil {
+			t.Fatalf("%v: %v", f, err)
+		}
+		if !reflect.DeepEqual(file.Records, recs) {
+			t.Errorf("%v: records read back differ from those written", f)
+		}
+		outside := 0
+		for _, r := range file.Records {
+			if r.Outside != nil {
+				outside++
+				if r.Outside[0] != "bottoms" {
+					t.Errorf("%v: point %d outside %v", f, r.Index, r.Outside)
+				}
+			}
+		}
+		if outside != 4 { // a = 1.6 is the last row, 4 points
+			t.Errorf("%v: %d points outside the checks, want 4", f, outside)
+		}
+		s, err := Summarize(prob.Header, file.Records)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(s.Outside) != 4 || s.Converged != 20 || !strings.Contains(s.Outside[3].Reason, "bottoms, antoine_ben") {
+			t.Errorf("%v: summary outside %+v, converged %d", f, s.Outside, s.Converged)
+		}
+		for _, p := range s.Pairings {
+			for _, l := range p.Lambda {
+				if l.MinAt == nil || l.MaxAt == nil || l.MinAt.Index >= 16 || l.MaxAt.Index >= 16 {
+					t.Errorf("%v: %s's λ range %+v takes a point outside the checks", f, p.Label, l)
+				}
+			}
+		}
+	}
+}

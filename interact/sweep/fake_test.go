@@ -19,8 +19,9 @@ var fakeOutputs = []Quantity{{Name: "y1", Unit: "kg/h"}, {Name: "y2"}}
 var fakeInputs = []Quantity{{Name: "u1", Unit: "kg/h"}, {Name: "u2", Unit: "kg/h"}}
 
 type fakeWorker struct {
-	calls *int // when set, counts points (for the cancelling test)
-	fail  func(p []float64) bool
+	calls   *int // when set, counts points (for the cancelling test)
+	fail    func(p []float64) bool
+	outside func(p []float64) []string // the checks a point is outside of
 }
 
 func (w *fakeWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
@@ -55,6 +56,9 @@ func (w *fakeWorker) Point(ctx context.Context, p []float64, from State, rec *Re
 		rec.Best = "y1:u1 y2:u2"
 	case rec.Pass[1]:
 		rec.Best = "y1:u2 y2:u1"
+	}
+	if w.outside != nil {
+		rec.Outside = w.outside(p)
 	}
 	if w.calls != nil {
 		*w.calls++

@@ -301,6 +301,7 @@ type modelWorker struct {
 	dxda   []float64  // dx/dp of each axis at the last point analysed, axis by axis
 	xpred  []float64
 	m0, m1 []float64   // the predictor's dx/ds at both ends
+	chk    []float64   // the checks' quantities at the last point
 	fromT  tangentData // the tangent data of the point's start (setFrom)
 	fromOK bool
 	dydx   *mat.Dense
@@ -319,7 +320,7 @@ func (m *modelRun) newWorker() *modelWorker {
 	n, no, ni := len(m.sys.Unknowns), len(m.sys.Outputs), len(m.sys.Inputs)
 	w := &modelWorker{m: m, eval: m.prog.NewEval(),
 		fp: mat.NewDense(len(m.sys.Equations), len(m.pcols), nil), dydx: mat.NewDense(no, n, nil), dydu: mat.NewDense(no, ni, nil), k: mat.NewDense(no, ni, nil),
-		dxda: make([]float64, len(m.axes)*n), xpred: make([]float64, n), m0: make([]float64, n), m1: make([]float64, n),
+		dxda: make([]float64, len(m.axes)*n), xpred: make([]float64, n), m0: make([]float64, n), m1: make([]float64, n), chk: make([]float64, len(m.sys.Checks)),
 		rhs: make([]float64, n), z: make([]float64, n), work: make([]float64, n), y: make([]float64, no)}
 	w.prob = &solve.Problem{
 		N: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx,
@@ -399,6 +400,7 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	}
 	x := res.X
 	st := State{X: x}
+	rec.Outside = w.outside(x, p)
 	a, k, err := w.analyse(x, p)
 	if err != nil {
 		return st, err
@@ -450,6 +452,29 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 		}
 	}
 	return st, nil
+}
+
+// outside returns the names of the model's checks whose quantity lies
+// outside its range at (x, p), or that cannot be evaluated there; nil when
+// none.
+func (w *modelWorker) outside(x, p []float64) []string {
+	checks := w.m.sys.Checks
+	if len(checks) == 0 {
+		return nil
+	}
+	var names []string
+	if err := w.eval.Checks(w.chk, x, p); err != nil {
+		for _, c := range checks {
+			names = append(names, c.Name)
+		}
+		return names
+	}
+	for i, c := range checks {
+		if v := w.chk[i]; !(v >= c.Min && v <= c.Max) {
+			names = append(names, c.Name)
+		}
+	}
+	return names
 }
 
 // fastIterations caps the Newton corrector after a prediction: from a good

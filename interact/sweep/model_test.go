@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"math"
+	"slices"
 	"testing"
 
 	"github.com/loopwright/loopwright/jacobian"
@@ -168,5 +169,32 @@ func TestPredictorKeepsNewtonShort(t *testing.T) {
 	}
 	if one < 100 {
 		t.Errorf("%d of %d points converged in one iteration, want at least 100 (109 when written)", one, points)
+	}
+}
+
+// TestColumnChecksFlagNegativeBottoms: with L at 2.706 kmol/min and the feed
+// at 1 kmol/min, a boilup above 3.706 kmol/min asks for a negative bottoms
+// flow (B = F + L - V; a flow below zero is not physical, common
+// practice). The column's balances still solve there, so only the model's
+// check says the point is not a column: the record must name it.
+func TestColumnChecksFlagNegativeBottoms(t *testing.T) {
+	sys, prog := columnA(t)
+	_, kv, _ := sys.Lookup("V")
+	_, kz, _ := sys.Lookup("zF")
+	axes := []Axis{AxisFor(sys, kv, 2.8*1000/60, 4.2*1000/60, 15, false), AxisFor(sys, kz, 0.3, 0.7, 5, false)}
+	prob, err := FromModel(context.Background(), sys, prog, &ModelOptions{Axes: axes})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var recs []Record
+	if err := Run(context.Background(), prob, &Options{Workers: 2}, func(r *Record) error { recs = append(recs, *r); return nil }); err != nil {
+		t.Fatal(err)
+	}
+	for _, r := range recs {
+		v := r.Values[0] // kmol/min
+		want := v > 3.706+1e-9
+		if got := slices.Contains(r.Outside, "bottoms"); got != want {
+			t.Errorf("point %d (V %.4g kmol/min): outside bottoms %v, want %v", r.Index, v, got, want)
+		}
 	}
 }

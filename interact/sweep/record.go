@@ -12,7 +12,7 @@ import (
 
 // FormatVersion is the first field of every sweep file's header. A reader
 // refuses files of another version.
-const FormatVersion = "loopwright-sweep/1"
+const FormatVersion = "loopwright-sweep/2"
 
 // Quantity is a named output or input with its display unit.
 type Quantity struct {
@@ -98,6 +98,10 @@ type Record struct {
 	Best    string    // the best-ranked pairing that is not rejected, by name ("" when all are)
 	NI      []float64 // Niederlinski index of each pairing of interest
 	Pass    []bool    // whether each pairing of interest passes every screen
+	// Outside names the model's checks whose quantity lies outside its
+	// range at this point (a negative flow, a correlation beyond its
+	// validity), in the model's order; nil when none does.
+	Outside []string
 }
 
 // Lambda returns the paired relative gain of output i in pairing pr, or NaN.
@@ -113,7 +117,7 @@ func (r *Record) Lambda(h *Header, pr Pairing, i int) float64 {
 func (r *Record) clone() *Record {
 	c := *r
 	c.Values, c.Outputs, c.K, c.RGA = slices.Clone(r.Values), slices.Clone(r.Outputs), slices.Clone(r.K), slices.Clone(r.RGA)
-	c.NI, c.Pass = slices.Clone(r.NI), slices.Clone(r.Pass)
+	c.NI, c.Pass, c.Outside = slices.Clone(r.NI), slices.Clone(r.Pass), slices.Clone(r.Outside)
 	return &c
 }
 
@@ -128,8 +132,11 @@ func (r *Record) normalize() {
 	if len(r.Pass) == 0 {
 		r.Pass = nil
 	}
+	if len(r.Outside) == 0 {
+		r.Outside = nil
+	}
 	if !r.Converged {
-		r.Outputs, r.K, r.RGA, r.NI, r.Pass = nil, nil, nil, nil, nil
+		r.Outputs, r.K, r.RGA, r.NI, r.Pass, r.Outside = nil, nil, nil, nil, nil, nil
 		r.Det, r.Cond, r.Best = math.NaN(), math.NaN(), ""
 	}
 	if math.IsNaN(r.Det) {

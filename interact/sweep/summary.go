@@ -18,6 +18,12 @@ type Summary struct {
 	Total       int        `json:"total"`     // points in the whole sweep
 	Converged   int        `json:"converged"` // records that converged
 	Failed      []Where    `json:"failed"`    // points that did not converge, with reasons
+	// Outside lists the converged points where a quantity lies outside the
+	// range of one of the model's checks (the reason names them): the
+	// model does not hold there, so they are left out of the pairings'
+	// shares, ranges and sign changes, of the best-pairing switches and of
+	// the singularity findings.
+	Outside []Where `json:"outside"`
 
 	Pairings []PairingSummary `json:"pairings"`
 	// Singular lists neighbouring points between which det K changes sign,
@@ -140,7 +146,7 @@ func Summarize(h *Header, recs []Record) (*Summary, error) {
 	sort.Ints(order)
 
 	s := &Summary{Model: h.Model, Fingerprint: h.Fingerprint, Design: h.Design, Total: h.Total,
-		Points: len(recs), Caution: h.Caution, Failed: []Where{}, Singular: []Between{}, Switches: []Between{},
+		Points: len(recs), Caution: h.Caution, Failed: []Where{}, Outside: []Where{}, Singular: []Between{}, Switches: []Between{},
 		BestShare: map[string]float64{}}
 	for _, a := range h.Axes {
 		s.Axes = append(s.Axes, AxisInfo{Name: a.Name, Unit: a.Unit, From: a.Display(a.From), To: a.Display(a.To), Points: a.Points, Log: a.Log})
@@ -152,7 +158,7 @@ func Summarize(h *Header, recs []Record) (*Summary, error) {
 		}
 		return w
 	}
-	ok := func(r *Record) bool { return r != nil && r.Converged && r.RGA != nil }
+	ok := func(r *Record) bool { return r != nil && r.Converged && r.RGA != nil && r.Outside == nil }
 
 	var analysed []*Record
 	for _, i := range order {
@@ -164,6 +170,12 @@ func Summarize(h *Header, recs []Record) (*Summary, error) {
 			continue
 		}
 		s.Converged++
+		if r.Outside != nil {
+			w := where(r)
+			w.Reason = "outside the model's checks: " + strings.Join(r.Outside, ", ")
+			s.Outside = append(s.Outside, w)
+			continue
+		}
 		if ok(r) {
 			analysed = append(analysed, r)
 		} else {

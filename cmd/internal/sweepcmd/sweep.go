@@ -378,8 +378,11 @@ func finish(f *cli.Factory, h *sweep.Header, records []sweep.Record, summaryPath
 		}
 	}
 	printSummary(f.IO.Out, s)
-	if len(s.Failed) > 0 {
+	switch {
+	case len(s.Failed) > 0:
 		return cli.Findingf("%d of %d points did not converge", len(s.Failed), s.Points)
+	case len(s.Outside) > 0:
+		return cli.Findingf("%d of %d points lie outside the model's checks", len(s.Outside), s.Points)
 	}
 	return nil
 }
@@ -395,7 +398,11 @@ func printSummary(w io.Writer, s *sweep.Summary) {
 		axes = append(axes, fmt.Sprintf("%s %s..%s%s (%d)", a.Name, render.Num(a.From, 4), render.Num(a.To, 4), u, a.Points))
 	}
 	fmt.Fprintf(w, "Sweep of %s: %s; %s\n", s.Model, strings.Join(axes, " x "), s.Design)
-	fmt.Fprintf(w, "%d points, %d converged, %d failed\n\n", s.Points, s.Converged, len(s.Failed))
+	fmt.Fprintf(w, "%d points, %d converged, %d failed", s.Points, s.Converged, len(s.Failed))
+	if len(s.Outside) > 0 {
+		fmt.Fprintf(w, ", %d outside the model's checks", len(s.Outside))
+	}
+	fmt.Fprint(w, "\n\n")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
 	fmt.Fprintln(tw, "pairing\trole\tpasses\tbest at\tλ min\tλ max\tNI min\tNI max\tsign changes")
 	for _, p := range s.Pairings {
@@ -426,16 +433,21 @@ func printSummary(w io.Writer, s *sweep.Summary) {
 	}
 	list("Best pairing switches", s.Switches)
 	list("Gain matrix singular", s.Singular)
-	if len(s.Failed) > 0 {
-		fmt.Fprintf(w, "\nFailed points (%d):\n", len(s.Failed))
-		for k, x := range s.Failed {
+	points := func(title string, ws []sweep.Where) {
+		if len(ws) == 0 {
+			return
+		}
+		fmt.Fprintf(w, "\n%s (%d):\n", title, len(ws))
+		for k, x := range ws {
 			if k == 5 {
-				fmt.Fprintf(w, "  ... and %d more\n", len(s.Failed)-5)
+				fmt.Fprintf(w, "  ... and %d more\n", len(ws)-5)
 				break
 			}
 			fmt.Fprintf(w, "  %s: %s\n", x.Describe(s.Axes), x.Reason)
 		}
 	}
+	points("Failed points", s.Failed)
+	points("Points outside the model's checks, left out of the figures above: the model does not hold there", s.Outside)
 	if s.Caution != "" {
 		fmt.Fprintf(w, "\n%s\n", render.Wrap(s.Caution, 80, ""))
 	}
