@@ -82,6 +82,7 @@ type envelope struct {
 	Switches  *table
 	Singular  *table
 	Failed    *table
+	Outside   *table
 	BestShare *table
 	Plots     []plotView
 }
@@ -719,12 +720,16 @@ func buildEnvelope(sw *Sweep) *envelope {
 		{Label: "Did not converge", Value: fmt.Sprint(len(s.Failed))},
 		{Label: "Pairing switches between neighbours", Value: fmt.Sprint(len(s.Switches))},
 		{Label: "Singular gain matrix (det K sign change or singular point)", Value: fmt.Sprint(len(s.Singular))},
+		{Label: "Outside the model's checks (left out of the figures)", Value: fmt.Sprint(len(s.Outside))},
 	}
 	if len(s.Failed) > 0 {
 		e.Facts[3].Class = "bad"
 	}
 	if len(s.Singular) > 0 {
 		e.Facts[5].Class = "bad"
+	}
+	if len(s.Outside) > 0 {
+		e.Facts[6].Class = "bad"
 	}
 	ax := &table{ID: "envelope-axes", Caption: "Swept axes", Cols: []col{{Name: "axis"}, {Name: "unit"}, {Name: "from", Num: true}, {Name: "to", Num: true}, {Name: "points", Num: true}, {Name: "spacing"}}}
 	for _, a := range s.Axes {
@@ -770,18 +775,25 @@ func buildEnvelope(sw *Sweep) *envelope {
 	}
 	e.Switches = betweenTable("envelope-switches", "Where the best pairing switches", s.Axes, s.Switches)
 	e.Singular = betweenTable("envelope-singular", "Where the gain matrix turns singular", s.Axes, s.Singular)
-	if len(s.Failed) > 0 {
-		ft := &table{ID: "envelope-failed", Caption: "Points that did not converge", Cols: []col{{Name: "point", Num: true}, {Name: "at"}, {Name: "reason"}}}
-		for i, w := range s.Failed {
-			if i == maxListed {
-				ft.Notes = append(ft.Notes, fmt.Sprintf("… and %d more; the sweep file lists them all.", len(s.Failed)-maxListed))
-				break
-			}
-			ft.Rows = append(ft.Rows, row{Cells: []cell{{Text: fmt.Sprint(w.Index), Num: true}, textCell(whereText(s.Axes, w)), {Text: w.Reason, Class: "note"}}})
-		}
-		e.Failed = ft
-	}
+	e.Failed = pointsTable("envelope-failed", "Points that did not converge", s.Axes, s.Failed)
+	e.Outside = pointsTable("envelope-outside", "Points outside the model's checks, where the model does not hold", s.Axes, s.Outside)
 	return e
+}
+
+// pointsTable lists points with their reasons, or is nil for none.
+func pointsTable(id, caption string, axes []sweep.AxisInfo, ws []sweep.Where) *table {
+	if len(ws) == 0 {
+		return nil
+	}
+	t := &table{ID: id, Caption: caption, Cols: []col{{Name: "point", Num: true}, {Name: "at"}, {Name: "reason"}}}
+	for i, w := range ws {
+		if i == maxListed {
+			t.Notes = append(t.Notes, fmt.Sprintf("… and %d more; the sweep file lists them all.", len(ws)-maxListed))
+			break
+		}
+		t.Rows = append(t.Rows, row{Cells: []cell{{Text: fmt.Sprint(w.Index), Num: true}, textCell(whereText(axes, w)), {Text: w.Reason, Class: "note"}}})
+	}
+	return t
 }
 
 // maxListed bounds the rows of the envelope's event tables.
@@ -889,7 +901,7 @@ func buildGlance(d *document, in *Input) {
 		if in.Sweep.Summary != nil {
 			s := in.Sweep.Summary
 			cls := "ok"
-			if len(s.Failed) > 0 || len(s.Singular) > 0 {
+			if len(s.Failed) > 0 || len(s.Singular) > 0 || len(s.Outside) > 0 {
 				cls = "warn"
 			}
 			d.Glance = append(d.Glance, fact{Label: "Envelope", Value: fmt.Sprintf("%d of %d points converged, %d switch%s of best pairing", s.Converged, s.Points, len(s.Switches), pluralES(len(s.Switches))), Class: cls})
