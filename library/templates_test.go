@@ -546,7 +546,8 @@ func TestTemplatesEnvelopeCorners(t *testing.T) {
 
 // A CONFIG outside 1..3 must not silently fall back to one of the
 // configurations: the column then has no reflux or boilup and fails to
-// expand, naming the missing symbol.
+// expand, naming the missing symbol and saying that its declarations'
+// conditions exclude it.
 func TestColumnBadConfig(t *testing.T) {
 	f, err := New("").Load("lib:column")
 	if err != nil {
@@ -554,8 +555,8 @@ func TestColumnBadConfig(t *testing.T) {
 	}
 	for _, c := range []float64{0, 4} {
 		_, err := f.Expand(&model.ExpandOptions{Constants: map[string]float64{"CONFIG": c}})
-		if err == nil || !strings.Contains(err.Error(), `undefined name "L"`) {
-			t.Errorf("CONFIG %v: Expand error %v, want an undefined L", c, err)
+		if err == nil || !strings.Contains(err.Error(), `"L" does not exist with these constants`) {
+			t.Errorf("CONFIG %v: Expand error %v, want L excluded by its when conditions", c, err)
 		}
 	}
 }

@@ -246,6 +246,26 @@ func (e *expander) allNames() []string {
 }
 
 func (e *expander) undefined(pos Pos, name, prefix string) {
+	// A name declared under a when condition that is false with these
+	// constants: say so, rather than suggest a near name.
+	var off []decl
+	for _, s := range e.f.symbols { // inputs and disturbances included
+		if s.name == name && s.when != nil && !e.active(s.when) {
+			off = append(off, decl{s.name, s.kind.String(), s.pos, s.when})
+		}
+	}
+	for _, d := range e.f.defines {
+		if d.name == name && d.when != nil && !e.active(d.when) {
+			off = append(off, decl{d.name, "define", d.pos, d.when})
+		}
+	}
+	if len(off) > 0 {
+		e.errorf(pos, "%s %q does not exist with these constants: every declaration of it has a when condition that is false; change the constants (--const) or the conditions", prefix, name)
+		for _, d := range off {
+			e.errs.addNote(pos, d.pos, "%s %q, when its condition holds", d.what, name)
+		}
+		return
+	}
 	e.undefinedIn(pos, name, fmt.Sprintf("%s undefined name %q", prefix, name), e.allNames())
 }
 
