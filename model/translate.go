@@ -248,20 +248,28 @@ func (e *expander) allNames() []string {
 func (e *expander) undefined(pos Pos, name, prefix string) {
 	// A name declared under a when condition that is false with these
 	// constants: say so, rather than suggest a near name.
-	var off []decl
+	// A condition that cannot be evaluated was reported where it stands.
+	off := func(w *fx) bool {
+		if w == nil {
+			return false
+		}
+		v, err := e.ceval(w.e, &ctx{m: w.m, what: "when condition"}, 0)
+		return err == nil && v == 0
+	}
+	var offs []decl
 	for _, s := range e.f.symbols { // inputs and disturbances included
-		if s.name == name && s.when != nil && !e.active(s.when) {
-			off = append(off, decl{s.name, s.kind.String(), s.pos, s.when})
+		if s.name == name && off(s.when) {
+			offs = append(offs, decl{s.name, s.kind.String(), s.pos, s.when})
 		}
 	}
 	for _, d := range e.f.defines {
-		if d.name == name && d.when != nil && !e.active(d.when) {
-			off = append(off, decl{d.name, "define", d.pos, d.when})
+		if d.name == name && off(d.when) {
+			offs = append(offs, decl{d.name, "define", d.pos, d.when})
 		}
 	}
-	if len(off) > 0 {
+	if len(offs) > 0 {
 		e.errorf(pos, "%s %q does not exist with these constants: every declaration of it has a when condition that is false; change the constants (--const) or the conditions", prefix, name)
-		for _, d := range off {
+		for _, d := range offs {
 			e.errs.addNote(pos, d.pos, "%s %q, when its condition holds", d.what, name)
 		}
 		return
