@@ -99,3 +99,40 @@ func BenchmarkOperatingColumn4YAML(b *testing.B) {
 		}
 	}
 }
+
+// BenchmarkSolverSmallWarm is one warm Solve of the two-unknown syrup model
+// from a start near its solution, as a sweep's corrector does it: the
+// solver's own overhead, not the model's evaluations, dominates.
+func BenchmarkSolverSmallWarm(b *testing.B) {
+	sys, prog := loadModel(b, "syrup.yaml")
+	x, p := make([]float64, len(sys.Unknowns)), make([]float64, len(sys.Params))
+	for j, s := range sys.Unknowns {
+		x[j] = s.Value
+	}
+	for k, s := range sys.Params {
+		p[k] = s.Value
+	}
+	e := prog.NewEval()
+	pat := prog.Pattern()
+	n := len(x)
+	prob := &Problem{N: n, RowPtr: pat.RowPtr, ColIdx: pat.ColIdx,
+		Residual: func(f, x []float64) error { return e.Residual(f, x, p) },
+		ResidualJacobian: func(f, jval, x []float64) error {
+			return e.ResidualJacobian(f, &jacobian.Sparse{Rows: n, Cols: n, RowPtr: pat.RowPtr, ColIdx: pat.ColIdx, Val: jval}, x, p)
+		},
+		Lower: []float64{0, 0}, Upper: []float64{math.Inf(1), 1}}
+	sol := NewSolver(prob)
+	sol.KeepPivots = true
+	res, err := sol.Solve(context.Background(), x, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	x0 := []float64{res.X[0] * (1 + 1e-4), res.X[1] * (1 - 1e-4)}
+	opts := &Options{NoBlocks: true, NoHomotopy: true, MaxIter: 8}
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := sol.Solve(context.Background(), x0, opts); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
