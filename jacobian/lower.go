@@ -174,16 +174,7 @@ func (l *lowering) reverse(t *tape) {
 			}
 		}
 	}
-	target := func(s int32) (ta, sa int32) {
-		switch {
-		case t.ops[s].code == opConst:
-			return dSink, dZero
-		case !reached[s]:
-			reached[s] = true
-			return t.aslot[s], dZero
-		}
-		return t.aslot[s], t.aslot[s]
-	}
+	target := func(s int32) (ta, sa int32) { return t.target(reached, s) }
 	for k := n - 1; k >= 0; k-- {
 		o := t.ops[k]
 		switch o.code {
@@ -213,6 +204,21 @@ func (l *lowering) reverse(t *tape) {
 		}
 	}
 	l.sweeps = append(l.sweeps, sw)
+}
+
+// target is where a reverse step adds to the adjoint of slot s, and what
+// it adds to: constants go to the sink; the first step to reach s (in sweep
+// order, tracked in reached) adds to the zero slot, so that no adjoint needs
+// clearing; later steps add to s's own.
+func (t *tape) target(reached []bool, s int32) (ta, sa int32) {
+	switch {
+	case t.ops[s].code == opConst:
+		return dSink, dZero
+	case !reached[s]:
+		reached[s] = true
+		return t.aslot[s], dZero
+	}
+	return t.aslot[s], t.aslot[s]
 }
 
 // batches gathers the sweeps of the tapes lowered so far into batches, one

@@ -459,16 +459,7 @@ func (pa *preacc) sweep(t *tape) sweep {
 		}
 	}
 	xReached := map[int32]bool{}
-	target := func(s int32) (ta, sa int32) {
-		switch {
-		case t.ops[s].code == opConst:
-			return dSink, dZero
-		case !reached[s]:
-			reached[s] = true
-			return t.aslot[s], dZero
-		}
-		return t.aslot[s], t.aslot[s]
-	}
+	target := func(s int32) (ta, sa int32) { return t.target(reached, s) }
 	// firstX is the adjoint a step reaching unknown x (whose adjoint is
 	// adj) adds to: the zero slot unless a chain step reached x before.
 	firstX := func(x, adj int32) int32 {

@@ -73,16 +73,7 @@ func denseBench(b *testing.B, a *CSR) {
 
 // BenchmarkSolveTridiag41: one solve with a kept factorisation.
 func BenchmarkSolveTridiag41(b *testing.B) {
-	a := fromDense(tridiag(41), nil)
-	f, err := Factorize(a, nil)
-	if err != nil {
-		b.Fatal(err)
-	}
-	x, y, w := make([]float64, a.Rows), make([]float64, a.Rows), make([]float64, a.Rows)
-	for i := range x {
-		x[i] = 1
-	}
-	b.ReportAllocs()
+	f, _, x, y, w := tridiag41(b, nil)
 	for b.Loop() {
 		f.SolveWith(w, y, x)
 	}
@@ -90,12 +81,7 @@ func BenchmarkSolveTridiag41(b *testing.B) {
 
 // BenchmarkRefactorValuesTridiag41: a refactorisation by values alone.
 func BenchmarkRefactorValuesTridiag41(b *testing.B) {
-	a := fromDense(tridiag(41), nil)
-	f, err := Factorize(a, nil)
-	if err != nil {
-		b.Fatal(err)
-	}
-	b.ReportAllocs()
+	f, a, _, _, _ := tridiag41(b, nil)
 	for b.Loop() {
 		sinkErr = f.RefactorValues(a.Val)
 	}
@@ -107,18 +93,26 @@ func BenchmarkStepTridiag41(b *testing.B)       { stepBench(b, nil) }
 func BenchmarkStepSparseTridiag41(b *testing.B) { stepBench(b, &Options{sparseOnly: true}) }
 
 func stepBench(b *testing.B, opts *Options) {
-	a := fromDense(tridiag(41), nil)
-	f, err := Factorize(a, opts)
-	if err != nil {
-		b.Fatal(err)
-	}
-	x, y, w := make([]float64, a.Rows), make([]float64, a.Rows), make([]float64, a.Rows)
-	for i := range x {
-		x[i] = 1
-	}
-	b.ReportAllocs()
+	f, a, x, y, w := tridiag41(b, opts)
 	for b.Loop() {
 		sinkErr = f.RefactorValues(a.Val)
 		f.SolveWith(w, y, x)
 	}
+}
+
+// tridiag41 factors the 41x41 tridiagonal test matrix a and gives a
+// right-hand side of ones x, a solution y and work space w; allocations are
+// reported from here on.
+func tridiag41(b *testing.B, opts *Options) (f *LU, a *CSR, x, y, w []float64) {
+	a = fromDense(tridiag(41), nil)
+	f, err := Factorize(a, opts)
+	if err != nil {
+		b.Fatal(err)
+	}
+	x, y, w = make([]float64, a.Rows), make([]float64, a.Rows), make([]float64, a.Rows)
+	for i := range x {
+		x[i] = 1
+	}
+	b.ReportAllocs()
+	return f, a, x, y, w
 }
