@@ -8,7 +8,8 @@ import (
 )
 
 // FuzzParse checks that Parse never panics, that errors point inside the
-// input, and that the normalised Text of a unit parses back to the same unit.
+// input, and that the normalised Text of a unit parses back to the same unit
+// when it is within the input limit.
 func FuzzParse(f *testing.F) {
 	for _, s := range []string{
 		"kg/h", "kJ/(kg*K)", "m^3/h", "Pa^0.5", "m^(1/3)", "1/s", "%", "degC",
@@ -34,6 +35,14 @@ func FuzzParse(f *testing.F) {
 		}
 		_ = u.Dim.String()
 		_ = u.Dim.Describe()
+		if utf8.RuneCountInString(u.Text) > MaxInput {
+			// The limit is on what a user writes; the normalised Text of a
+			// long input may exceed it, since products written by
+			// juxtaposition gain a "*" ("1%1" becomes "1*%*1"). Nothing
+			// parses a Text again, so only Texts within the limit must
+			// round-trip.
+			return
+		}
 		v, err := Parse(u.Text)
 		if err != nil {
 			t.Fatalf("Parse(%q).Text = %q does not parse: %v", s, u.Text, err)
