@@ -138,8 +138,10 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 		go func() {
 			defer wg.Done()
 			wk := prob.NewWorker()
+			var states []State
 			for c := range jobs {
-				if !solveChain(ctx, prob, wk, c, opts.Done, results) {
+				var ok bool
+				if states, ok = solveChain(ctx, prob, wk, c, opts.Done, states, results); !ok {
 					return
 				}
 			}
@@ -174,6 +176,12 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 		}
 	}
 	for r := range results {
+		if next < len(todo) && r.Index == todo[next] && len(pending) == 0 {
+			// In order (one worker, or the chain the collector waits on).
+			put(r)
+			next++
+			continue
+		}
 		pending[r.Index] = r
 		for next < len(todo) && pending[todo[next]] != nil {
 			put(pending[todo[next]])
@@ -200,38 +208,38 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 }
 
 // solveChain solves chain c in order and sends the records of points not
-// yet done. It returns false when the context was cancelled.
-func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[int]bool, out chan<- *Record) bool {
+// yet done. It returns false when the context was cancelled. states is
+// scratch space for the chain's converged states, returned for the next
+// chain.
+func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[int]bool, states []State, out chan<- *Record) ([]State, bool) {
 	chain := prob.Plan.Chains[c]
 	p := append([]float64(nil), prob.Nominal...)
 	start := State{X: prob.Start, Tangent: prob.StartTangent, ChainStart: true}
-	states := make(map[int]State, len(chain))
-	for _, s := range chain {
+	// states[k] is the converged state of chain[k] (nil X when it did not
+	// converge).
+	states = append(states[:0], make([]State, len(chain))...)
+	defer clear(states) // let the chain's states go
+	for k, s := range chain {
 		if ctx.Err() != nil {
-			return false
+			return states, false
 		}
 		var rec *Record
 		if h := prob.head(c); h != nil && s.Parent < 0 && h.Record.Index == s.Point {
 			rec = h.Record.clone()
-			if h.State.X != nil {
-				states[s.Point] = h.State
-			}
+			states[k] = h.State
 		} else {
-			from, ok := states[s.Parent]
-			if !ok {
-				from = start
+			from := start
+			ok := false
+			if j := parentStep(chain, k); j >= 0 && states[j].X != nil {
+				from, ok = states[j], true
 			}
 			vals := prob.Plan.Points[s.Point]
 			for a, ax := range prob.Plan.Axes {
 				p[ax.Param] = vals[a]
 			}
-			var st State
-			rec, st = solvePoint(ctx, prob, wk, p, s.Point, from, !ok)
+			rec, states[k] = solvePoint(ctx, prob, wk, p, s.Point, from, !ok)
 			if ctx.Err() != nil {
-				return false // the point may be half done: leave it to a resume
-			}
-			if st.X != nil {
-				states[s.Point] = st
+				return states, false // the point may be half done: leave it to a resume
 			}
 		}
 		if done[s.Point] {
@@ -239,7 +247,23 @@ func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[i
 		}
 		out <- rec // the collector drains until every worker is done
 	}
-	return true
+	return states, true
+}
+
+// parentStep returns the position in chain of the parent of chain[k], or
+// -1 when it has none. The parent comes earlier in the chain, most often
+// just before.
+func parentStep(chain []Step, k int) int {
+	parent := chain[k].Parent
+	if parent < 0 {
+		return -1
+	}
+	for j := k - 1; j >= 0; j-- {
+		if chain[j].Point == parent {
+			return j
+		}
+	}
+	return -1
 }
 
 // solvePoint solves point i at parameters p from the state from (the
@@ -271,11 +295,12 @@ func (prob *Problem) head(c int) *Head {
 	return nil
 }
 
-// recordBox holds a record and the values of up to four axes in one
-// allocation.
+// recordBox holds a record, the values of up to four axes and the pass
+// flags of up to eight pairings in one allocation.
 type recordBox struct {
 	r    Record
 	vals [4]float64
+	pass [8]bool
 }
 
 func newRecord(prob *Problem, i int) *Record {
@@ -284,6 +309,7 @@ func newRecord(prob *Problem, i int) *Record {
 		b := &recordBox{}
 		r = &b.r
 		r.Values = b.vals[:na:na]
+		r.Pass = b.pass[:0:len(b.pass)]
 	} else {
 		r = &Record{Values: make([]float64, na)}
 	}

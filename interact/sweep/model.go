@@ -417,8 +417,8 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	rec.RGA, buf = buf[:no*ni:no*ni], buf[no*ni:]
 	rec.NI, buf = buf[:np:np], buf[np:]
 	st.Tangent = w.tangent(buf, p, from)
-	for i, o := range w.m.sys.Outputs {
-		rec.Outputs[i] = o.Unit.FromSI(w.y[i])
+	for i := range w.m.sys.Outputs {
+		rec.Outputs[i] = w.m.sys.Outputs[i].Unit.FromSI(w.y[i])
 	}
 	for i := 0; i < no; i++ {
 		for j := 0; j < ni; j++ {
@@ -434,7 +434,11 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	if b := bestOf(a); b != nil {
 		rec.Best = w.pairingName(b.Pairs)
 	}
-	rec.Pass = make([]bool, np)
+	if cap(rec.Pass) >= np {
+		rec.Pass = rec.Pass[:np] // room newRecord made
+	} else {
+		rec.Pass = make([]bool, np)
+	}
 	// Unscaled, the analysis's K is k itself and its NI of a pairing is
 	// Niederlinski(k, pr) to the bit (det from the same LU): reuse it.
 	unscaled := w.aopts.Scaling == interact.ScaleNone
