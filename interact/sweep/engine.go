@@ -128,37 +128,6 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
-	jobs := make(chan int)
-	// Room for a run of records, so that one worker on one core hands them
-	// over in runs rather than one switch of goroutines per record.
-	results := make(chan *Record, 64*workers)
-	var wg sync.WaitGroup
-	for w := 0; w < workers; w++ {
-		wg.Add(1)
-		go func() {
-			defer wg.Done()
-			wk := prob.NewWorker()
-			var states []State
-			for c := range jobs {
-				var ok bool
-				if states, ok = solveChain(ctx, prob, wk, c, opts.Done, states, results); !ok {
-					return
-				}
-			}
-		}()
-	}
-	go func() {
-		defer close(jobs)
-		for _, c := range chains {
-			select {
-			case jobs <- c:
-			case <-ctx.Done():
-				return
-			}
-		}
-	}()
-	go func() { wg.Wait(); close(results) }()
-
 	pending := map[int]*Record{}
 	next, emitted := 0, 0
 	var emitErr error
@@ -175,18 +144,64 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 			opts.Progress(emitted, len(todo))
 		}
 	}
-	for r := range results {
+	collect := func(r *Record) {
 		if next < len(todo) && r.Index == todo[next] && len(pending) == 0 {
 			// In order (one worker, or the chain the collector waits on).
 			put(r)
 			next++
-			continue
+			return
 		}
 		pending[r.Index] = r
 		for next < len(todo) && pending[todo[next]] != nil {
 			put(pending[todo[next]])
 			delete(pending, todo[next])
 			next++
+		}
+	}
+	if workers == 1 {
+		// One worker: solve the chains here, with no goroutines to hand the
+		// records over.
+		wk := prob.NewWorker()
+		var states []State
+		for _, c := range chains {
+			var ok bool
+			if states, ok = solveChain(ctx, prob, wk, c, opts.Done, states, collect); !ok {
+				break
+			}
+		}
+	} else {
+		jobs := make(chan int)
+		// Room for a run of records, so that one worker on one core hands them
+		// over in runs rather than one switch of goroutines per record.
+		results := make(chan *Record, 64*workers)
+		var wg sync.WaitGroup
+		for w := 0; w < workers; w++ {
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				wk := prob.NewWorker()
+				var states []State
+				for c := range jobs {
+					var ok bool
+					if states, ok = solveChain(ctx, prob, wk, c, opts.Done, states, func(r *Record) { results <- r }); !ok {
+						return
+					}
+				}
+			}()
+		}
+		go func() {
+			defer close(jobs)
+			for _, c := range chains {
+				select {
+				case jobs <- c:
+				case <-ctx.Done():
+					return
+				}
+			}
+		}()
+		go func() { wg.Wait(); close(results) }()
+		for r := range results {
+			collect(r)
 		}
 	}
 	// Cancelled or failed: keep whatever finished beyond a gap, in order.
@@ -208,10 +223,10 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 }
 
 // solveChain solves chain c in order and sends the records of points not
-// yet done. It returns false when the context was cancelled. states is
+// yet done to send. It returns false when the context was cancelled. states is
 // scratch space for the chain's converged states, returned for the next
 // chain.
-func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[int]bool, states []State, out chan<- *Record) ([]State, bool) {
+func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[int]bool, states []State, send func(*Record)) ([]State, bool) {
 	chain := prob.Plan.Chains[c]
 	p := append([]float64(nil), prob.Nominal...)
 	start := State{X: prob.Start, Tangent: prob.StartTangent, ChainStart: true}
@@ -245,7 +260,7 @@ func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[i
 		if done[s.Point] {
 			continue
 		}
-		out <- rec // the collector drains until every worker is done
+		send(rec) // the collector drains until every worker is done
 	}
 	return states, true
 }
