@@ -116,3 +116,91 @@ func BenchmarkResidualJacobianTemplateColumn(b *testing.B) {
 func BenchmarkParamJacobianTemplateColumn(b *testing.B) {
 	paramJacobianBench(b, templateSystem(b, "column.yaml"))
 }
+
+// The syrup blender (testdata/models/syrup.yaml: 2 unknowns, 2 outputs, 2
+// inputs) as the envelope sweep evaluates it at each point: dF/dp for the
+// inputs and then the sweep axes (s_conc, f_conc, as the sweep's benchmark
+// lays them out), the output gradients for the inputs, the residual with
+// dF/dx for the solver, and the outputs.
+func syrupSetup(b *testing.B) (*model.System, *Program, *Eval, []float64, []float64, []int) {
+	f, err := model.LoadFile("../testdata/models/syrup.yaml")
+	if err != nil {
+		b.Fatalf("load: %v", err)
+	}
+	sys, err := f.Expand(nil)
+	if err != nil {
+		b.Fatalf("expand: %v", err)
+	}
+	prog, e, x, p := benchSetup(b, sys)
+	_, ks, ok1 := sys.Lookup("s_conc")
+	_, kf, ok2 := sys.Lookup("f_conc")
+	if !ok1 || !ok2 {
+		b.Fatal("syrup.yaml: s_conc or f_conc missing")
+	}
+	cols := append(append([]int(nil), sys.Inputs...), ks, kf)
+	return sys, prog, e, x, p, cols
+}
+
+func BenchmarkParamJacobianSyrup(b *testing.B) {
+	_, prog, e, x, p, cols := syrupSetup(b)
+	dst := mat.NewDense(prog.NumEquations(), len(cols), nil)
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.ParamJacobian(dst, x, p, cols)
+	}
+}
+
+func BenchmarkOutputGradientsSyrup(b *testing.B) {
+	sys, prog, e, x, p, _ := syrupSetup(b)
+	dx := mat.NewDense(prog.NumOutputs(), prog.NumUnknowns(), nil)
+	dp := mat.NewDense(prog.NumOutputs(), len(sys.Inputs), nil)
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.OutputGradients(dx, dp, x, p, sys.Inputs)
+	}
+}
+
+func BenchmarkResidualJacobianSyrup(b *testing.B) {
+	_, prog, e, x, p, _ := syrupSetup(b)
+	f := make([]float64, prog.NumEquations())
+	jac := prog.NewJacobian()
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.ResidualJacobian(f, jac, x, p)
+	}
+}
+
+func BenchmarkResidualSyrup(b *testing.B) {
+	_, prog, e, x, p, _ := syrupSetup(b)
+	f := make([]float64, prog.NumEquations())
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.Residual(f, x, p)
+	}
+}
+
+func BenchmarkOutputsSyrup(b *testing.B) {
+	_, prog, e, x, p, _ := syrupSetup(b)
+	y := make([]float64, prog.NumOutputs())
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.Outputs(y, x, p)
+	}
+}
+
+// BenchmarkSweepPointSyrup is the sequence of evaluations the sweep worker
+// makes per point after solving (dF/dp, the output gradients, the outputs),
+// at one (x, p).
+func BenchmarkSweepPointSyrup(b *testing.B) {
+	sys, prog, e, x, p, cols := syrupSetup(b)
+	fp := mat.NewDense(prog.NumEquations(), len(cols), nil)
+	dx := mat.NewDense(prog.NumOutputs(), prog.NumUnknowns(), nil)
+	dp := mat.NewDense(prog.NumOutputs(), len(sys.Inputs), nil)
+	y := make([]float64, prog.NumOutputs())
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = e.ParamJacobian(fp, x, p, cols)
+		sinkErr = e.OutputGradients(dx, dp, x, p, sys.Inputs)
+		sinkErr = e.Outputs(y, x, p)
+	}
+}
