@@ -145,6 +145,19 @@ func Compile(sys *model.System) (*Program, error) {
 		}
 	}
 	prog.outOut, prog.defOut, prog.chkOut = outSlots(prog.outs), outSlots(prog.defs), outSlots(prog.checks)
+	// Eval reads w and d at these indices without further checks.
+	for _, idx := range [][]int32{prog.eqOut, prog.outOut, prog.defOut, prog.chkOut} {
+		for _, k := range idx {
+			if k < 0 || int(k) >= prog.size {
+				panic("jacobian: a result outside the value space")
+			}
+		}
+	}
+	for _, k := range prog.eqAdj {
+		if k < 0 || int(k) >= prog.dsize {
+			panic("jacobian: a derivative outside the adjoints")
+		}
+	}
 	return prog, nil
 }
 

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"unsafe"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -116,9 +117,7 @@ func (e *Eval) derivFault(tapes []*tape, rev *revSweeps, t *tape, wrt string) *E
 func (e *Eval) values(dst []float64, tapes []*tape, code *fwdProgram, out []int32) error {
 	e.run(code)
 	if gatherFinite(e.w, out) {
-		for i, k := range out {
-			dst[i] = e.w[k]
-		}
+		gatherTo(dst, e.w, out)
 		return nil
 	}
 	for i, t := range tapes {
@@ -208,13 +207,9 @@ func (e *Eval) jacobianRows(f []float64, dst *Sparse, pre bool) (retry bool, err
 	prog := e.prog
 	if gatherFinite(e.w, prog.eqOut) && gatherFinite(e.d, prog.eqAdj) {
 		if f != nil {
-			for i, k := range prog.eqOut {
-				f[i] = e.w[k]
-			}
+			gatherTo(f, e.w, prog.eqOut)
 		}
-		for i, k := range prog.eqAdj {
-			dst.Val[i] = e.d[k]
-		}
+		gatherTo(dst.Val, e.d, prog.eqAdj)
 		return false, nil
 	}
 	pat := prog.pattern
@@ -245,20 +240,33 @@ func (e *Eval) jacobianRows(f []float64, dst *Sparse, pre bool) (retry bool, err
 }
 
 // gatherFinite reports whether every z[k] for k in idx is finite, as
-// allFinite does.
+// allFinite does. Every index is below len(z): idx is one of the program's
+// lists of results (z = w) or of derivatives (z = d), or a plan's, all
+// checked against the lengths of w and d when built, so z is read without
+// further checks.
 func gatherFinite(z []float64, idx []int32) bool {
+	zp := unsafe.Pointer(unsafe.SliceData(z))
 	var s0, s1 float64
 	i := 0
 	for ; i+1 < len(idx); i += 2 {
-		a, b := z[idx[i]], z[idx[i+1]]
+		a, b := *at(zp, idx[i]), *at(zp, idx[i+1])
 		s0 += a - a
 		s1 += b - b
 	}
 	if i < len(idx) {
-		a := z[idx[i]]
+		a := *at(zp, idx[i])
 		s0 += a - a
 	}
 	return s0+s1 == 0
+}
+
+// gatherTo sets dst[i] = z[idx[i]], z indexed as in gatherFinite.
+func gatherTo(dst []float64, z []float64, idx []int32) {
+	zp := unsafe.Pointer(unsafe.SliceData(z))
+	dst = dst[:len(idx)]
+	for i, k := range idx {
+		dst[i] = *at(zp, k)
+	}
 }
 
 // allFinite reports whether every element of v is finite: f-f is 0 for a
@@ -340,6 +348,7 @@ type gradPlan struct {
 	// that of d tape i / d p[cols[k]]: the adjoint in the tape's region, or
 	// the zero slot when the tape does not load the symbol.
 	xIdx, pIdx []int32
+	dIdx       []int32 // xIdx (when wantX) then pIdx (when wantP)
 }
 
 // fits reports whether the plan serves a call with these columns and
@@ -376,7 +385,8 @@ func (e *Eval) newPlan(tapes []*tape, rev *revCode, cols []int, wantX, wantP boo
 			}
 		}
 	}
-	for _, a := range slices.Concat(pl.xIdx, pl.pIdx) {
+	pl.dIdx = slices.Concat(pl.xIdx, pl.pIdx)
+	for _, a := range pl.dIdx {
 		if a < 0 || int(a) >= len(e.d) {
 			panic("jacobian: derivative index outside the adjoints")
 		}
@@ -394,7 +404,7 @@ func (e *Eval) newPlan(tapes []*tape, rev *revCode, cols []int, wantX, wantP boo
 func (e *Eval) grad(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, out []int32, rev *revSweeps, pl *gradPlan) error {
 	e.run(code)
 	reverse(&rev.seeds, pl.rev, e.d, e.w)
-	if !gatherFinite(e.w, out) || !gatherFinite(e.d, pl.xIdx) || !gatherFinite(e.d, pl.pIdx) {
+	if !gatherFinite(e.w, out) || !gatherFinite(e.d, pl.dIdx) {
 		return e.gradRows(dx, dp, tapes, code, rev, pl.rev, pl.cols)
 	}
 	if dx != nil {
@@ -409,6 +419,10 @@ func (e *Eval) grad(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, out []in
 // gatherRows sets element (i, j) of dst, an r×c matrix, to z[idx[i*c+j]].
 func gatherRows(dst *mat.Dense, z []float64, idx []int32) {
 	m := dst.RawMatrix()
+	if m.Stride == m.Cols { // rows stored end to end
+		gatherTo(m.Data, z, idx)
+		return
+	}
 	for i := range m.Rows {
 		row := m.Data[i*m.Stride : i*m.Stride+m.Cols]
 		ix := idx[i*m.Cols : (i+1)*m.Cols]

@@ -327,8 +327,80 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 	lp := unsafe.Pointer(unsafe.SliceData(rc.lanes)) // the lanes of the run
 	for _, r := range rc.runs {
 		n := uintptr(r.n)
-		reverseStep(r.code, unsafe.Slice((*rlane)(lp), n), dp, wp)
+		lanes := unsafe.Slice((*rlane)(lp), n)
 		lp = unsafe.Add(lp, n*unsafe.Sizeof(rlane{}))
+		// One step of the reverse sweep, an op of code r.code, on each lane.
+		switch code := r.code; code {
+		case opAdd:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) + g
+					*at(dp, o.tb) = *at(dp, o.sb) + g
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opSub:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) + g
+					*at(dp, o.tb) = *at(dp, o.sb) - g
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opMul:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) + g**at(wp, o.vb)
+					*at(dp, o.tb) = *at(dp, o.sb) + g**at(wp, o.va)
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opDiv:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					q := g / *at(wp, o.vb)
+					*at(dp, o.ta) = *at(dp, o.sa) + q
+					*at(dp, o.tb) = *at(dp, o.sb) - q**at(wp, o.vk)
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opNeg:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) - g
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opChain:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) + g**at(wp, o.vb)
+				} else {
+					skip(o, dp)
+				}
+			}
+		default:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					reverseOther(code, o, g, dp, wp)
+				} else {
+					skip(o, dp)
+				}
+			}
+		}
+
 	}
 }
 
@@ -336,81 +408,6 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 // that i is in range.
 func at(p unsafe.Pointer, i int32) *float64 {
 	return (*float64)(unsafe.Add(p, uintptr(uint32(i))*8))
-}
-
-// reverseStep runs one step of the reverse sweep, an op of the given code,
-// on each lane. d and w point to the adjoints and the values.
-func reverseStep(code opcode, lanes []rlane, d, w unsafe.Pointer) {
-	switch code {
-	case opAdd:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) + g
-				*at(d, o.tb) = *at(d, o.sb) + g
-			} else {
-				skip(o, d)
-			}
-		}
-	case opSub:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) + g
-				*at(d, o.tb) = *at(d, o.sb) - g
-			} else {
-				skip(o, d)
-			}
-		}
-	case opMul:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vb)
-				*at(d, o.tb) = *at(d, o.sb) + g**at(w, o.va)
-			} else {
-				skip(o, d)
-			}
-		}
-	case opDiv:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				q := g / *at(w, o.vb)
-				*at(d, o.ta) = *at(d, o.sa) + q
-				*at(d, o.tb) = *at(d, o.sb) - q**at(w, o.vk)
-			} else {
-				skip(o, d)
-			}
-		}
-	case opNeg:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) - g
-			} else {
-				skip(o, d)
-			}
-		}
-	case opChain:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vb)
-			} else {
-				skip(o, d)
-			}
-		}
-	default:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				reverseOther(code, o, g, d, w)
-			} else {
-				skip(o, d)
-			}
-		}
-	}
 }
 
 // skip passes over a step whose adjoint is 0: an operand reached first here
