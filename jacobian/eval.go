@@ -344,11 +344,13 @@ type gradPlan struct {
 	wantX, wantP bool  // rows of dx, of dp
 	cols         []int // the parameter columns, when wantP
 	rev          *revCode
-	// xIdx[i*nx+j] is the index in d of d tape i / d x[j], pIdx[i*len(cols)+k]
-	// that of d tape i / d p[cols[k]]: the adjoint in the tape's region, or
-	// the zero slot when the tape does not load the symbol.
-	xIdx, pIdx []int32
-	dIdx       []int32 // xIdx (when wantX) then pIdx (when wantP)
+	// Entry k of the rows of dx is (xRow[k], xCol[k]), found at xSrc[k] in
+	// d: the unknowns each tape loads (the other entries are 0). pIdx[i*len(cols)+k]
+	// is the index in d of d tape i / d p[cols[k]]: the adjoint in the
+	// tape's region, or the zero slot when the tape does not load it.
+	xRow, xCol, xSrc []int32
+	pIdx             []int32
+	dIdx             []int32 // xSrc (when wantX) then pIdx (when wantP)
 }
 
 // fits reports whether the plan serves a call with these columns and
@@ -362,10 +364,11 @@ func (pl *gradPlan) fits(cols []int, wantX, wantP bool) bool {
 func (e *Eval) newPlan(tapes []*tape, rev *revCode, cols []int, wantX, wantP bool) gradPlan {
 	pl := gradPlan{ok: true, wantX: wantX, wantP: wantP, rev: rev}
 	if wantX {
-		pl.xIdx = make([]int32, len(tapes)*e.prog.nx)
 		for i, t := range tapes {
 			for k, vr := range t.vars {
-				pl.xIdx[i*e.prog.nx+int(vr.index)] = t.adj0 + int32(k)
+				pl.xRow = append(pl.xRow, int32(i))
+				pl.xCol = append(pl.xCol, vr.index)
+				pl.xSrc = append(pl.xSrc, t.adj0+int32(k))
 			}
 		}
 	}
@@ -385,7 +388,7 @@ func (e *Eval) newPlan(tapes []*tape, rev *revCode, cols []int, wantX, wantP boo
 			}
 		}
 	}
-	pl.dIdx = slices.Concat(pl.xIdx, pl.pIdx)
+	pl.dIdx = slices.Concat(pl.xSrc, pl.pIdx)
 	for _, a := range pl.dIdx {
 		if a < 0 || int(a) >= len(e.d) {
 			panic("jacobian: derivative index outside the adjoints")
@@ -408,12 +411,30 @@ func (e *Eval) grad(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, out []in
 		return e.gradRows(dx, dp, tapes, code, rev, pl.rev, pl.cols)
 	}
 	if dx != nil {
-		gatherRows(dx, e.d, pl.xIdx)
+		scatterRows(dx, e.d, pl.xRow, pl.xCol, pl.xSrc)
 	}
 	if dp != nil {
 		gatherRows(dp, e.d, pl.pIdx)
 	}
 	return nil
+}
+
+// scatterRows clears dst and sets element (row[k], col[k]) of it to
+// z[src[k]], z indexed as in gatherFinite.
+func scatterRows(dst *mat.Dense, z []float64, row, col, src []int32) {
+	m := dst.RawMatrix()
+	if m.Stride == m.Cols {
+		clear(m.Data[:m.Rows*m.Cols])
+	} else {
+		for i := range m.Rows {
+			clear(m.Data[i*m.Stride : i*m.Stride+m.Cols])
+		}
+	}
+	zp := unsafe.Pointer(unsafe.SliceData(z))
+	col, src = col[:len(row)], src[:len(row)]
+	for k, i := range row {
+		m.Data[int(i)*m.Stride+int(col[k])] = *at(zp, src[k])
+	}
 }
 
 // gatherRows sets element (i, j) of dst, an r×c matrix, to z[idx[i*c+j]].
