@@ -21,6 +21,9 @@ type Program struct {
 	checks  []*tape
 	pattern *Sparse // structure of dF/dx, Val nil
 	eqOut   []int32 // index in w of each equation's residual
+	outOut  []int32 // index in w of each output's value, and so on
+	defOut  []int32
+	chkOut  []int32
 	eqAdj   []int32 // index in d of each entry of dF/dx, in the order of pattern
 	maxOps  int     // longest tape (source form), for describing errors
 	consts  []float64
@@ -109,9 +112,11 @@ func Compile(sys *model.System) (*Program, error) {
 		f := l.schedule()
 		prog.size = max(prog.size, prog.base+len(f.code))
 		prog.dsize = max(prog.dsize, int(l.dnext))
-		rev := revSweeps{all: l.batches(depAll), x: l.batches(depX), p: l.batches(depP), sweeps: l.sweeps}
+		rev := revSweeps{all: flatten(l.batches(depAll)), x: flatten(l.batches(depX)), p: flatten(l.batches(depP)), sweeps: l.sweeps}
 		if pre {
-			rev.tan, rev.xPre, rev.npre = l.preaccumulate(f)
+			var xPre []batch
+			rev.tan, xPre, rev.npre = l.preaccumulate(f)
+			rev.xPre = flatten(xPre)
 			if rev.tan != nil {
 				rev.tanBase = prog.base + len(f.code)
 				prog.size = max(prog.size, rev.tanBase+len(rev.tan.code))
@@ -139,14 +144,28 @@ func Compile(sys *model.System) (*Program, error) {
 			prog.eqAdj = append(prog.eqAdj, t.adj0+int32(k))
 		}
 	}
+	prog.outOut, prog.defOut, prog.chkOut = outSlots(prog.outs), outSlots(prog.defs), outSlots(prog.checks)
+	// Eval reads w and d at these indices without further checks.
+	for _, idx := range [][]int32{prog.eqOut, prog.outOut, prog.defOut, prog.chkOut} {
+		for _, k := range idx {
+			if k < 0 || int(k) >= prog.size {
+				panic("jacobian: a result outside the value space")
+			}
+		}
+	}
+	for _, k := range prog.eqAdj {
+		if k < 0 || int(k) >= prog.dsize {
+			panic("jacobian: a derivative outside the adjoints")
+		}
+	}
 	return prog, nil
 }
 
-// revSweeps are the reverse sweeps of a group of tapes in batches, all steps
-// or only those whose result depends on x or on p.
+// revSweeps are the reverse sweeps of a group of tapes, all steps or only
+// those whose result depends on x or on p.
 type revSweeps struct {
 	seeds
-	all, x, p []batch
+	all, x, p revCode
 	sweeps    []sweep // every step of every tape, for paramBatches
 
 	// The x sweeps stopping at preaccumulated values (xPre), after the
@@ -154,8 +173,17 @@ type revSweeps struct {
 	// nil when the group has nothing worth preaccumulating (preacc.go).
 	tan     *fwdProgram
 	tanBase int
-	xPre    []batch
+	xPre    revCode
 	npre    int // values preaccumulated
+}
+
+// outSlots returns the index in w of each tape's result.
+func outSlots(tapes []*tape) []int32 {
+	s := make([]int32, len(tapes))
+	for i, t := range tapes {
+		s[i] = t.out
+	}
+	return s
 }
 
 // maxErrors is the number of errors Compile reports before it stops.

@@ -2,7 +2,9 @@ package jacobian
 
 import (
 	"fmt"
+	"math"
 	"slices"
+	"unsafe"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -25,13 +27,22 @@ type Eval struct {
 	xw, pw []float64 // perturbed copies of x and p for finite differences
 	f1, f2 []float64 // residuals for finite differences
 
+	// cur is the forward program whose values w holds for the x and p in
+	// w (nil when none does): a group's values are computed once for a
+	// point, however many of its methods are called there.
+	cur *fwdProgram
+
 	// The equations' reverse steps leading to the parameters last asked
-	// of ParamJacobian, built on first use (an Eval is one caller's).
-	pjCols []int
-	pjRev  revSweeps
+	// of ParamJacobian, and the plans of the last ParamJacobian and
+	// OutputGradients, built on first use (an Eval is one caller's).
+	pjRev revSweeps
+	pj    gradPlan
+	og    gradPlan
 }
 
 // check checks the lengths of x and p and copies them into the value space.
+// When they are those already there, to the bit, the values of the forward
+// program last run are kept.
 func (e *Eval) check(x, p []float64) {
 	nx, np := e.prog.nx, e.prog.np
 	if len(x) != nx {
@@ -40,8 +51,34 @@ func (e *Eval) check(x, p []float64) {
 	if len(p) != np {
 		panic(fmt.Sprintf("jacobian: len(p) = %d, want %d", len(p), np))
 	}
-	copy(e.w[:nx], x)
-	copy(e.w[nx:nx+np], p)
+	cx := setBits(e.w[:nx], x)
+	cp := setBits(e.w[nx:nx+np], p)
+	if cx || cp {
+		e.cur = nil
+	}
+}
+
+// setBits copies src into dst (of equal length), reporting whether any
+// number changed, to the bit.
+func setBits(dst, src []float64) bool {
+	dst = dst[:len(src)]
+	changed := false
+	for i, v := range src {
+		if math.Float64bits(v) != math.Float64bits(dst[i]) {
+			dst[i] = v
+			changed = true
+		}
+	}
+	return changed
+}
+
+// run makes w hold the values of the forward program f at the x and p in
+// w, running it unless it was the last run there.
+func (e *Eval) run(f *fwdProgram) {
+	if e.cur != f {
+		forward(f, e.w, e.prog.base)
+		e.cur = f
+	}
 }
 
 func checkLen(what string, got, want int) {
@@ -71,14 +108,18 @@ func (e *Eval) value(t *tape) (float64, error) {
 // caller may have run only those it needed), so that the adjoints of the
 // source form are all there to examine.
 func (e *Eval) derivFault(tapes []*tape, rev *revSweeps, t *tape, wrt string) *EvalError {
-	reverse(&rev.seeds, rev.all, e.d, e.w)
+	reverse(&rev.seeds, &rev.all, e.d, e.w)
 	return t.derivFault(gather(e.vals, e.w, t.slot, len(t.ops)), gather(e.adj, e.d, t.aslot, len(t.aslot)), wrt)
 }
 
 // values runs the forward program of a group and copies out the value of
-// each of its tapes.
-func (e *Eval) values(dst []float64, tapes []*tape, code *fwdProgram) error {
-	forward(code, e.w, e.prog.base)
+// each of its tapes, whose results are at out in w.
+func (e *Eval) values(dst []float64, tapes []*tape, code *fwdProgram, out []int32) error {
+	e.run(code)
+	if gatherFinite(e.w, out) {
+		gatherTo(dst, e.w, out)
+		return nil
+	}
 	for i, t := range tapes {
 		r, err := e.value(t)
 		if err != nil {
@@ -93,21 +134,21 @@ func (e *Eval) values(dst []float64, tapes []*tape, code *fwdProgram) error {
 func (e *Eval) Residual(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.eqs))
-	return e.values(dst, e.prog.eqs, e.prog.eqFwd)
+	return e.values(dst, e.prog.eqs, e.prog.eqFwd, e.prog.eqOut)
 }
 
 // Outputs sets dst[i] to the value of output i.
 func (e *Eval) Outputs(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.outs))
-	return e.values(dst, e.prog.outs, e.prog.outFwd)
+	return e.values(dst, e.prog.outs, e.prog.outFwd, e.prog.outOut)
 }
 
 // Defines sets dst[i] to the value of define i.
 func (e *Eval) Defines(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.defs))
-	return e.values(dst, e.prog.defs, e.prog.defFwd)
+	return e.values(dst, e.prog.defs, e.prog.defFwd, e.prog.defOut)
 }
 
 // Checks sets dst[i] to the value of the quantity of range check i
@@ -115,7 +156,7 @@ func (e *Eval) Defines(dst, x, p []float64) error {
 func (e *Eval) Checks(dst, x, p []float64) error {
 	e.check(x, p)
 	checkLen("dst", len(dst), len(e.prog.checks))
-	return e.values(dst, e.prog.checks, e.prog.chkFwd)
+	return e.values(dst, e.prog.checks, e.prog.chkFwd, e.prog.chkOut)
 }
 
 // Jacobian fills dst.Val with dF/dx at (x, p), in the order of Pattern. dst
@@ -135,7 +176,7 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	if dst.Rows != pat.Rows || dst.Cols != pat.Cols || len(dst.Val) != len(pat.ColIdx) {
 		panic("jacobian: destination does not have the Jacobian's pattern (use Program.NewJacobian)")
 	}
-	forward(e.prog.eqFwd, e.w, e.prog.base)
+	e.run(e.prog.eqFwd)
 	rev := &e.prog.eqRev
 	pre := rev.tan != nil
 	if pre {
@@ -143,7 +184,7 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 		pre = allFinite(e.w[rev.tanBase : rev.tanBase+len(rev.tan.code)])
 	}
 	if pre {
-		reverse(&rev.seeds, rev.xPre, e.d, e.w)
+		reverse(&rev.seeds, &rev.xPre, e.d, e.w)
 		retry, err := e.jacobianRows(f, dst, true)
 		if !retry {
 			return err
@@ -151,7 +192,7 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 	}
 	// Nothing preaccumulated, or a tangent or a derivative that is not
 	// finite: the full sweeps decide, and describe what is wrong.
-	reverse(&rev.seeds, rev.x, e.d, e.w)
+	reverse(&rev.seeds, &rev.x, e.d, e.w)
 	_, err := e.jacobianRows(f, dst, false)
 	return err
 }
@@ -166,13 +207,9 @@ func (e *Eval) jacobianRows(f []float64, dst *Sparse, pre bool) (retry bool, err
 	prog := e.prog
 	if gatherFinite(e.w, prog.eqOut) && gatherFinite(e.d, prog.eqAdj) {
 		if f != nil {
-			for i, k := range prog.eqOut {
-				f[i] = e.w[k]
-			}
+			gatherTo(f, e.w, prog.eqOut)
 		}
-		for i, k := range prog.eqAdj {
-			dst.Val[i] = e.d[k]
-		}
+		gatherTo(dst.Val, e.d, prog.eqAdj)
 		return false, nil
 	}
 	pat := prog.pattern
@@ -203,18 +240,33 @@ func (e *Eval) jacobianRows(f []float64, dst *Sparse, pre bool) (retry bool, err
 }
 
 // gatherFinite reports whether every z[k] for k in idx is finite, as
-// allFinite does.
+// allFinite does. Every index is below len(z): idx is one of the program's
+// lists of results (z = w) or of derivatives (z = d), or a plan's, all
+// checked against the lengths of w and d when built, so z is read without
+// further checks.
 func gatherFinite(z []float64, idx []int32) bool {
+	zp := unsafe.Pointer(unsafe.SliceData(z))
 	var s0, s1 float64
-	for len(idx) >= 2 {
-		s0 += z[idx[0]] - z[idx[0]]
-		s1 += z[idx[1]] - z[idx[1]]
-		idx = idx[2:]
+	i := 0
+	for ; i+1 < len(idx); i += 2 {
+		a, b := *at(zp, idx[i]), *at(zp, idx[i+1])
+		s0 += a - a
+		s1 += b - b
 	}
-	for _, k := range idx {
-		s0 += z[k] - z[k]
+	if i < len(idx) {
+		a := *at(zp, idx[i])
+		s0 += a - a
 	}
 	return s0+s1 == 0
+}
+
+// gatherTo sets dst[i] = z[idx[i]], z indexed as in gatherFinite.
+func gatherTo(dst []float64, z []float64, idx []int32) {
+	zp := unsafe.Pointer(unsafe.SliceData(z))
+	dst = dst[:len(idx)]
+	for i, k := range idx {
+		dst[i] = *at(zp, k)
+	}
 }
 
 // allFinite reports whether every element of v is finite: f-f is 0 for a
@@ -244,17 +296,14 @@ func allFinite(v []float64) bool {
 func (e *Eval) ParamJacobian(dst *mat.Dense, x, p []float64, cols []int) error {
 	e.check(x, p)
 	checkDims("dst", dst, len(e.prog.eqs), len(cols))
-	if e.pjCols == nil || !slices.Equal(cols, e.pjCols) {
-		for _, c := range cols {
-			if c < 0 || c >= e.prog.np {
-				panic(fmt.Sprintf("jacobian: parameter column %d out of range [0, %d)", c, e.prog.np))
-			}
-		}
+	if !e.pj.fits(cols, false, true) {
+		e.checkCols(cols)
 		rev := e.prog.eqRev
-		rev.p = paramBatches(e.prog.eqs, rev.sweeps, cols, e.prog.np)
-		e.pjCols, e.pjRev = slices.Clone(cols), rev
+		rev.p = flatten(paramBatches(e.prog.eqs, rev.sweeps, cols, e.prog.np))
+		e.pjRev = rev
+		e.pj = e.newPlan(e.prog.eqs, &e.pjRev.p, cols, false, true)
 	}
-	return e.gradRows(nil, dst, e.prog.eqs, e.prog.eqFwd, &e.pjRev, cols)
+	return e.grad(nil, dst, e.prog.eqs, e.prog.eqFwd, e.prog.eqOut, &e.pjRev, &e.pj)
 }
 
 // OutputGradients sets dx to dy/dx (one row per output, one column per
@@ -266,12 +315,149 @@ func (e *Eval) OutputGradients(dx, dp *mat.Dense, x, p []float64, cols []int) er
 	if dp != nil {
 		checkDims("dp", dp, nout, len(cols))
 	}
-	return e.gradRows(dx, dp, e.prog.outs, e.prog.outFwd, &e.prog.outRev, cols)
+	if !e.og.fits(cols, true, dp != nil) {
+		if dp != nil {
+			e.checkCols(cols)
+		}
+		rev := &e.prog.outRev.all
+		if dp == nil {
+			rev = &e.prog.outRev.x
+		}
+		e.og = e.newPlan(e.prog.outs, rev, cols, true, dp != nil)
+	}
+	return e.grad(dx, dp, e.prog.outs, e.prog.outFwd, e.prog.outOut, &e.prog.outRev, &e.og)
+}
+
+func (e *Eval) checkCols(cols []int) {
+	for _, c := range cols {
+		if c < 0 || c >= e.prog.np {
+			panic(fmt.Sprintf("jacobian: parameter column %d out of range [0, %d)", c, e.prog.np))
+		}
+	}
+}
+
+// gradPlan is what grad needs for the rows of a group of tapes and one set
+// of parameter columns, prepared on the first call with them: the reverse
+// steps to run, and where in d each entry of the rows is found.
+type gradPlan struct {
+	ok           bool
+	wantX, wantP bool  // rows of dx, of dp
+	cols         []int // the parameter columns, when wantP
+	rev          *revCode
+	// Entry k of the rows of dx is (xRow[k], xCol[k]), found at xSrc[k] in
+	// d: the unknowns each tape loads (the other entries are 0). pIdx[i*len(cols)+k]
+	// is the index in d of d tape i / d p[cols[k]]: the adjoint in the
+	// tape's region, or the zero slot when the tape does not load it.
+	xRow, xCol, xSrc []int32
+	pIdx             []int32
+	dIdx             []int32 // xSrc (when wantX) then pIdx (when wantP)
+}
+
+// fits reports whether the plan serves a call with these columns and
+// destinations.
+func (pl *gradPlan) fits(cols []int, wantX, wantP bool) bool {
+	return pl.ok && pl.wantX == wantX && pl.wantP == wantP && (!wantP || slices.Equal(cols, pl.cols))
+}
+
+// newPlan prepares the plan of the rows of tapes, whose reverse steps are
+// rev, for cols (checked by the caller).
+func (e *Eval) newPlan(tapes []*tape, rev *revCode, cols []int, wantX, wantP bool) gradPlan {
+	pl := gradPlan{ok: true, wantX: wantX, wantP: wantP, rev: rev}
+	if wantX {
+		for i, t := range tapes {
+			for k, vr := range t.vars {
+				pl.xRow = append(pl.xRow, int32(i))
+				pl.xCol = append(pl.xCol, vr.index)
+				pl.xSrc = append(pl.xSrc, t.adj0+int32(k))
+			}
+		}
+	}
+	if wantP {
+		pl.cols = slices.Clone(cols)
+		pl.pIdx = make([]int32, len(tapes)*len(cols))
+		adj := make([]int32, e.prog.np)
+		for i, t := range tapes {
+			for k, vr := range t.params {
+				adj[vr.index] = t.adj0 + int32(len(t.vars)+k)
+			}
+			for k, c := range cols {
+				pl.pIdx[i*len(cols)+k] = adj[c]
+			}
+			for _, vr := range t.params {
+				adj[vr.index] = dZero
+			}
+		}
+	}
+	pl.dIdx = slices.Concat(pl.xSrc, pl.pIdx)
+	for _, a := range pl.dIdx {
+		if a < 0 || int(a) >= len(e.d) {
+			panic("jacobian: derivative index outside the adjoints")
+		}
+	}
+	return pl
+}
+
+// grad sets the rows of dx and dp (either may be nil) as gradRows does,
+// by the plan pl: it runs the group's forward program (unless w holds its
+// values already) and the plan's reverse steps and, when every value and
+// every derivative asked for is finite (the common case), copies the
+// derivatives from d. Otherwise gradRows runs instead, on the same
+// numbers, to fill the destinations as far as it goes and describe what is
+// not finite.
+func (e *Eval) grad(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, out []int32, rev *revSweeps, pl *gradPlan) error {
+	e.run(code)
+	reverse(&rev.seeds, pl.rev, e.d, e.w)
+	if !gatherFinite(e.w, out) || !gatherFinite(e.d, pl.dIdx) {
+		return e.gradRows(dx, dp, tapes, code, rev, pl.rev, pl.cols)
+	}
+	if dx != nil {
+		scatterRows(dx, e.d, pl.xRow, pl.xCol, pl.xSrc)
+	}
+	if dp != nil {
+		gatherRows(dp, e.d, pl.pIdx)
+	}
+	return nil
+}
+
+// scatterRows clears dst and sets element (row[k], col[k]) of it to
+// z[src[k]], z indexed as in gatherFinite.
+func scatterRows(dst *mat.Dense, z []float64, row, col, src []int32) {
+	m := dst.RawMatrix()
+	if m.Stride == m.Cols {
+		clear(m.Data[:m.Rows*m.Cols])
+	} else {
+		for i := range m.Rows {
+			clear(m.Data[i*m.Stride : i*m.Stride+m.Cols])
+		}
+	}
+	zp := unsafe.Pointer(unsafe.SliceData(z))
+	col, src = col[:len(row)], src[:len(row)]
+	for k, i := range row {
+		m.Data[int(i)*m.Stride+int(col[k])] = *at(zp, src[k])
+	}
+}
+
+// gatherRows sets element (i, j) of dst, an r×c matrix, to z[idx[i*c+j]].
+func gatherRows(dst *mat.Dense, z []float64, idx []int32) {
+	m := dst.RawMatrix()
+	if m.Stride == m.Cols { // rows stored end to end
+		gatherTo(m.Data, z, idx)
+		return
+	}
+	for i := range m.Rows {
+		row := m.Data[i*m.Stride : i*m.Stride+m.Cols]
+		ix := idx[i*m.Cols : (i+1)*m.Cols]
+		for j := range row {
+			row[j] = z[ix[j]]
+		}
+	}
 }
 
 // gradRows sets dx[i][j] = d tapes[i] / d x[j] when dx is not nil, and
-// dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil.
-func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev *revSweeps, cols []int) error {
+// dp[i][k] = d tapes[i] / d p[cols[k]] when dp is not nil, running the
+// reverse steps steps of the group's sweeps rev. It is the general form of
+// grad, which describes a value or a derivative that is not finite.
+func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev *revSweeps, steps *revCode, cols []int) error {
 	if dp != nil {
 		for _, c := range cols {
 			if c < 0 || c >= e.prog.np {
@@ -280,13 +466,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev 
 		}
 	}
 	forward(code, e.w, e.prog.base)
-	steps := rev.all
-	switch {
-	case dp == nil:
-		steps = rev.x
-	case dx == nil:
-		steps = rev.p
-	}
+	e.cur = code
 	reverse(&rev.seeds, steps, e.d, e.w)
 	for i, t := range tapes {
 		if _, err := e.value(t); err != nil {

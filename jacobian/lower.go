@@ -396,5 +396,13 @@ func scheduleCode(code []instr, base int32) (*fwdProgram, func(int32) int32) {
 			f.runs = append(f.runs, run{code: o.code, n: 1})
 		}
 	}
+	// forward relies on the runs covering the code exactly.
+	total := 0
+	for _, r := range f.runs {
+		total += int(r.n)
+	}
+	if total != n {
+		panic("jacobian: forward runs do not cover the program")
+	}
 	return f, re
 }

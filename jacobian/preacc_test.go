@@ -62,14 +62,8 @@ func sharedOps() *model.System {
 	return sys
 }
 
-// steps counts the reverse steps of batches.
-func steps(batches []batch) int {
-	n := 0
-	for _, bt := range batches {
-		n += bt.k * len(bt.code)
-	}
-	return n
-}
+// steps counts the reverse steps of rc, lane by lane.
+func steps(rc revCode) int { return len(rc.lanes) }
 
 // TestPreaccumulated checks that the cost rule picks what it should: each
 // shared value of sharedOps, and on the column template each stage's V*y[i]

@@ -168,39 +168,52 @@ type run struct {
 
 // forward runs f on the value space w (x, p and the constants in place),
 // filling the temporaries from w[base]. Operands of instruction k are below
-// base+k (checked when f was built), so once w is known to be long enough
-// they are read without further checks.
+// base+k (checked when f was built) and the runs cover f.code exactly, so
+// once w is known to be long enough they are read without further checks.
 func forward(f *fwdProgram, w []float64, base int) {
-	tmp := w[base : base+len(f.code)]
+	if len(w) < base+len(f.code) {
+		panic("jacobian: value space too short for the program")
+	}
 	wp := unsafe.Pointer(unsafe.SliceData(w))
-	k := 0
+	cp := unsafe.Pointer(unsafe.SliceData(f.code)) // instruction k
+	out := unsafe.Add(wp, uintptr(base)*8)         // its value, w[base+k]
 	for _, r := range f.runs {
-		code := f.code[k : k+int(r.n)]
-		out := tmp[k : k+int(r.n)]
-		k += int(r.n)
+		n := uintptr(r.n)
 		switch r.code {
 		case opAdd:
-			for i, o := range code {
-				out[i] = *at(wp, o.a) + *at(wp, o.b)
+			for i := range n {
+				o := instrAt(cp, i)
+				*(*float64)(unsafe.Add(out, i*8)) = *at(wp, o.a) + *at(wp, o.b)
 			}
 		case opSub:
-			for i, o := range code {
-				out[i] = *at(wp, o.a) - *at(wp, o.b)
+			for i := range n {
+				o := instrAt(cp, i)
+				*(*float64)(unsafe.Add(out, i*8)) = *at(wp, o.a) - *at(wp, o.b)
 			}
 		case opMul:
-			for i, o := range code {
-				out[i] = *at(wp, o.a) * *at(wp, o.b)
+			for i := range n {
+				o := instrAt(cp, i)
+				*(*float64)(unsafe.Add(out, i*8)) = *at(wp, o.a) * *at(wp, o.b)
 			}
 		case opDiv:
-			for i, o := range code {
-				out[i] = *at(wp, o.a) / *at(wp, o.b)
+			for i := range n {
+				o := instrAt(cp, i)
+				*(*float64)(unsafe.Add(out, i*8)) = *at(wp, o.a) / *at(wp, o.b)
 			}
 		default:
-			for i, o := range code {
-				out[i] = forwardOther(o, wp)
+			for i := range n {
+				*(*float64)(unsafe.Add(out, i*8)) = forwardOther(*instrAt(cp, i), wp)
 			}
 		}
+		cp = unsafe.Add(cp, n*unsafe.Sizeof(instr{}))
+		out = unsafe.Add(out, n*8)
 	}
+}
+
+// instrAt returns instruction i of the array at p. Callers have checked
+// that i is in range.
+func instrAt(p unsafe.Pointer, i uintptr) *instr {
+	return (*instr)(unsafe.Add(p, i*unsafe.Sizeof(instr{})))
 }
 
 // forwardOther is the value of an instruction of a less common op.
@@ -253,30 +266,141 @@ func newSeeds(tapes []*tape) seeds {
 	return s
 }
 
+// revCode is reverse sweeps as Eval runs them: the steps of their batches
+// laid end to end, batch after batch and step after step (the lanes of step
+// s of a batch being consecutive already), with consecutive steps of the
+// same op joined into one run. One dispatch serves a run; the lanes run in
+// exactly the order of the batches, so no number changes.
+type revCode struct {
+	runs  []run
+	lanes []rlane
+	// Every index of a lane is in [0, dlen) for d or [0, wlen) for w, as
+	// checked when the batches were built; reverse checks len(d) and
+	// len(w) against them once and indexes without further checks.
+	dlen, wlen int
+}
+
+// flatten lays batches end to end as a revCode.
+func flatten(batches []batch) revCode {
+	var rc revCode
+	for b := range batches {
+		bt := &batches[b]
+		rc.dlen, rc.wlen = max(rc.dlen, bt.dlen), max(rc.wlen, bt.wlen)
+		for _, code := range bt.code {
+			if n := len(rc.runs); n > 0 && rc.runs[n-1].code == code {
+				rc.runs[n-1].n += int32(bt.k)
+			} else {
+				rc.runs = append(rc.runs, run{code: code, n: int32(bt.k)})
+			}
+		}
+		rc.lanes = append(rc.lanes, bt.lanes...)
+	}
+	n := 0
+	for _, r := range rc.runs {
+		n += int(r.n)
+	}
+	if n != len(rc.lanes) {
+		panic("jacobian: reverse runs do not cover the lanes")
+	}
+	return rc
+}
+
 // reverse runs the adjoint sweeps of a group's tapes, whose seeds are s and
-// whose steps are batches, after the forward program of their group: d
-// receives the derivative of each tape's result with respect to its
-// temporaries, unknowns and parameters, in the tape's region; w holds the
-// values. Each adjoint is accumulated term by term in the order of the
-// source form's sweep, operand a before operand b, starting from 0, and a
-// step whose own adjoint is 0 is skipped, so every derivative is the same
-// number the source form gives.
-func reverse(s *seeds, batches []batch, d, w []float64) {
+// whose steps are rc, after the forward program of their group: d receives
+// the derivative of each tape's result with respect to its temporaries,
+// unknowns and parameters, in the tape's region; w holds the values. Each
+// adjoint is accumulated term by term in the order of the source form's
+// sweep, operand a before operand b, starting from 0, and a step whose own
+// adjoint is 0 is skipped, so every derivative is the same number the
+// source form gives.
+func reverse(s *seeds, rc *revCode, d, w []float64) {
 	for _, z := range s.zero {
 		d[z] = 0
 	}
 	for _, r := range s.root {
 		d[r] = 1
 	}
-	for b := range batches {
-		bt := &batches[b]
-		if len(d) < bt.dlen || len(w) < bt.wlen {
-			panic("jacobian: work buffers too short for the program")
+	if len(d) < rc.dlen || len(w) < rc.wlen {
+		panic("jacobian: work buffers too short for the program")
+	}
+	dp, wp := unsafe.Pointer(unsafe.SliceData(d)), unsafe.Pointer(unsafe.SliceData(w))
+	lp := unsafe.Pointer(unsafe.SliceData(rc.lanes)) // the lanes of the run
+	for _, r := range rc.runs {
+		n := uintptr(r.n)
+		lanes := unsafe.Slice((*rlane)(lp), n)
+		lp = unsafe.Add(lp, n*unsafe.Sizeof(rlane{}))
+		// One step of the reverse sweep, an op of code r.code, on each lane.
+		switch code := r.code; code {
+		case opAdd:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) + g
+					*at(dp, o.tb) = *at(dp, o.sb) + g
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opSub:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) + g
+					*at(dp, o.tb) = *at(dp, o.sb) - g
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opMul:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) + g**at(wp, o.vb)
+					*at(dp, o.tb) = *at(dp, o.sb) + g**at(wp, o.va)
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opDiv:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					q := g / *at(wp, o.vb)
+					*at(dp, o.ta) = *at(dp, o.sa) + q
+					*at(dp, o.tb) = *at(dp, o.sb) - q**at(wp, o.vk)
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opNeg:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) - g
+				} else {
+					skip(o, dp)
+				}
+			}
+		case opChain:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					*at(dp, o.ta) = *at(dp, o.sa) + g**at(wp, o.vb)
+				} else {
+					skip(o, dp)
+				}
+			}
+		default:
+			for j := range lanes {
+				o := &lanes[j]
+				if g := *at(dp, o.tk); g != 0 {
+					reverseOther(code, o, g, dp, wp)
+				} else {
+					skip(o, dp)
+				}
+			}
 		}
-		dp, wp := unsafe.Pointer(unsafe.SliceData(d)), unsafe.Pointer(unsafe.SliceData(w))
-		for s, code := range bt.code {
-			reverseStep(code, bt.lanes[s*bt.k:(s+1)*bt.k], dp, wp)
-		}
+
 	}
 }
 
@@ -284,81 +408,6 @@ func reverse(s *seeds, batches []batch, d, w []float64) {
 // that i is in range.
 func at(p unsafe.Pointer, i int32) *float64 {
 	return (*float64)(unsafe.Add(p, uintptr(uint32(i))*8))
-}
-
-// reverseStep runs one step of the reverse sweep, an op of the given code,
-// on each lane. d and w point to the adjoints and the values.
-func reverseStep(code opcode, lanes []rlane, d, w unsafe.Pointer) {
-	switch code {
-	case opAdd:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) + g
-				*at(d, o.tb) = *at(d, o.sb) + g
-			} else {
-				skip(o, d)
-			}
-		}
-	case opSub:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) + g
-				*at(d, o.tb) = *at(d, o.sb) - g
-			} else {
-				skip(o, d)
-			}
-		}
-	case opMul:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vb)
-				*at(d, o.tb) = *at(d, o.sb) + g**at(w, o.va)
-			} else {
-				skip(o, d)
-			}
-		}
-	case opDiv:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				q := g / *at(w, o.vb)
-				*at(d, o.ta) = *at(d, o.sa) + q
-				*at(d, o.tb) = *at(d, o.sb) - q**at(w, o.vk)
-			} else {
-				skip(o, d)
-			}
-		}
-	case opNeg:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) - g
-			} else {
-				skip(o, d)
-			}
-		}
-	case opChain:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				*at(d, o.ta) = *at(d, o.sa) + g**at(w, o.vb)
-			} else {
-				skip(o, d)
-			}
-		}
-	default:
-		for j := range lanes {
-			o := &lanes[j]
-			if g := *at(d, o.tk); g != 0 {
-				reverseOther(code, o, g, d, w)
-			} else {
-				skip(o, d)
-			}
-		}
-	}
 }
 
 // skip passes over a step whose adjoint is 0: an operand reached first here

@@ -1,0 +1,190 @@
+package jacobian
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"sort"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// evalCall is one method of Eval as the tests of the fast paths call it:
+// it evaluates at (x, p) into fresh destinations poisoned with NaN and
+// returns everything it wrote, with its error.
+type evalCall struct {
+	name string
+	call func(e *Eval, x, p []float64) ([]float64, error)
+}
+
+func evalCalls(prog *Program, cols []int) []evalCall {
+	neq, nout, nx := prog.NumEquations(), prog.NumOutputs(), prog.NumUnknowns()
+	values := func(n int, f func(e *Eval, dst, x, p []float64) error) func(e *Eval, x, p []float64) ([]float64, error) {
+		return func(e *Eval, x, p []float64) ([]float64, error) {
+			dst := nanSlice(n)
+			return dst, f(e, dst, x, p)
+		}
+	}
+	calls := []evalCall{
+		{"Residual", values(neq, (*Eval).Residual)},
+		{"Outputs", values(nout, (*Eval).Outputs)},
+		{"Defines", values(prog.NumDefines(), (*Eval).Defines)},
+		{"Checks", values(prog.NumChecks(), (*Eval).Checks)},
+		{"ResidualJacobian", func(e *Eval, x, p []float64) ([]float64, error) {
+			f, jac := nanSlice(neq), prog.NewJacobian()
+			copy(jac.Val, nanSlice(len(jac.Val)))
+			err := e.ResidualJacobian(f, jac, x, p)
+			return append(f, jac.Val...), err
+		}},
+	}
+	if neq > 0 && len(cols) > 0 {
+		calls = append(calls, evalCall{"ParamJacobian", func(e *Eval, x, p []float64) ([]float64, error) {
+			dst := nanDense(neq, len(cols))
+			err := e.ParamJacobian(dst, x, p, cols)
+			return dst.RawMatrix().Data, err
+		}})
+	}
+	if nout > 0 && nx > 0 {
+		calls = append(calls, evalCall{"OutputGradients dx", func(e *Eval, x, p []float64) ([]float64, error) {
+			dx := nanDense(nout, nx)
+			err := e.OutputGradients(dx, nil, x, p, nil)
+			return dx.RawMatrix().Data, err
+		}})
+		if len(cols) > 0 {
+			calls = append(calls, evalCall{"OutputGradients", func(e *Eval, x, p []float64) ([]float64, error) {
+				dx, dp := nanDense(nout, nx), nanDense(nout, len(cols))
+				err := e.OutputGradients(dx, dp, x, p, cols)
+				return append(dx.RawMatrix().Data, dp.RawMatrix().Data...), err
+			}})
+		}
+	}
+	return calls
+}
+
+// TestKeptValues calls the methods of one Eval in a random order at a few
+// points, each several times in a row, changing x or p in place between
+// points (as a solver does), and compares every result and error, bit for
+// bit, with those of a new Eval, which has no values kept from an earlier
+// call: the values an Eval keeps for a point are used only at that point.
+func TestKeptValues(t *testing.T) {
+	for name, sys := range bitSystems(t) {
+		t.Run(name, func(t *testing.T) {
+			prog := mustCompile(t, sys)
+			x0, p0 := guess(sys)
+			rnd := rand.New(rand.NewPCG(7, 11))
+			// The parameters in a mixed order, with one repeated, as the
+			// sweep asks for the inputs and then the axes.
+			var cols []int
+			for k := range prog.NumParams() {
+				if k%2 == 0 {
+					cols = append(cols, k)
+				}
+			}
+			if len(cols) > 0 {
+				cols = append(cols, cols[0])
+			}
+			calls := evalCalls(prog, cols)
+			e := prog.NewEval()
+			x, p := make([]float64, len(x0)), make([]float64, len(p0))
+			copy(x, x0)
+			copy(p, p0)
+			for step := range 200 {
+				switch rnd.IntN(4) {
+				case 0: // move x a little, in place
+					i := rnd.IntN(max(len(x), 1))
+					if i < len(x) {
+						x[i] = x0[i] * (1 + 0.01*(2*rnd.Float64()-1))
+					}
+				case 1: // or p
+					i := rnd.IntN(max(len(p), 1))
+					if i < len(p) {
+						p[i] = p0[i] * (1 + 0.01*(2*rnd.Float64()-1))
+					}
+				case 2: // a zero of the other sign: equal as numbers, not as bits
+					if len(x) > 0 {
+						x[0] = math.Copysign(0, -math.Copysign(1, x[0]))
+					}
+				}
+				c := calls[rnd.IntN(len(calls))]
+				for rep := range 1 + rnd.IntN(3) {
+					got, err := c.call(e, x, p)
+					want, werr := c.call(prog.NewEval(), x, p)
+					if g, w := errString(err), errString(werr); g != w {
+						t.Fatalf("step %d.%d %s: error %q, new Eval %q", step, rep, c.name, g, w)
+					}
+					if i, ok := sameBits(got, want); !ok {
+						t.Fatalf("step %d.%d %s: element %d is %v, new Eval %v", step, rep, c.name, i, got[i], want[i])
+					}
+				}
+			}
+		})
+	}
+}
+
+// TestGradFastPath compares the rows ParamJacobian and OutputGradients
+// gather through their plans (grad) with those of the general path
+// (gradRows) at the same points, bit for bit, on every model: the plan's
+// indices pick the same derivatives the general path scatters and gathers.
+func TestGradFastPath(t *testing.T) {
+	names := make([]string, 0)
+	systems := bitSystems(t)
+	for name := range systems {
+		names = append(names, name)
+	}
+	sort.Strings(names)
+	for _, name := range names {
+		sys := systems[name]
+		t.Run(name, func(t *testing.T) {
+			prog := mustCompile(t, sys)
+			x, p := guess(sys)
+			neq, nout, nx, np := prog.NumEquations(), prog.NumOutputs(), prog.NumUnknowns(), prog.NumParams()
+			if np == 0 {
+				t.Skip("no parameters")
+			}
+			colSets := [][]int{{0}, {np - 1, 0, np - 1}}
+			all := make([]int, np)
+			for k := range all {
+				all[k] = np - 1 - k
+			}
+			colSets = append(colSets, all)
+			fast, slow := prog.NewEval(), prog.NewEval()
+			for _, cols := range colSets {
+				for trial := range 3 {
+					xt := make([]float64, nx)
+					for i, v := range x {
+						xt[i] = v * (1 + 0.001*float64(trial))
+					}
+					what := fmt.Sprint(cols, " trial ", trial)
+					if neq > 0 {
+						got, want := nanDense(neq, len(cols)), nanDense(neq, len(cols))
+						err := fast.ParamJacobian(got, xt, p, cols)
+						slow.check(xt, p)
+						rev := prog.eqRev
+						rev.p = flatten(paramBatches(prog.eqs, rev.sweeps, cols, np))
+						werr := slow.gradRows(nil, want, prog.eqs, prog.eqFwd, &rev, &rev.p, cols)
+						compareDense(t, "ParamJacobian "+what, got, want, err, werr)
+					}
+					if nout > 0 && nx > 0 {
+						gx, gp, wx, wp := nanDense(nout, nx), nanDense(nout, len(cols)), nanDense(nout, nx), nanDense(nout, len(cols))
+						err := fast.OutputGradients(gx, gp, xt, p, cols)
+						slow.check(xt, p)
+						werr := slow.gradRows(wx, wp, prog.outs, prog.outFwd, &prog.outRev, &prog.outRev.all, cols)
+						compareDense(t, "OutputGradients dx "+what, gx, wx, err, werr)
+						compareDense(t, "OutputGradients dp "+what, gp, wp, err, werr)
+					}
+				}
+			}
+		})
+	}
+}
+
+func compareDense(t *testing.T, what string, got, want *mat.Dense, err, werr error) {
+	t.Helper()
+	if g, w := errString(err), errString(werr); g != w {
+		t.Errorf("%s: error %q, general path %q", what, g, w)
+	}
+	if i, ok := sameBits(got.RawMatrix().Data, want.RawMatrix().Data); !ok {
+		t.Errorf("%s: element %d is %v, general path %v", what, i, got.RawMatrix().Data[i], want.RawMatrix().Data[i])
+	}
+}
