@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"slices"
 	"sort"
 	"strings"
 
@@ -330,16 +329,72 @@ func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
 
 // Solve is Newton(ctx, prob, x0, opts) for the Solver's Problem.
 func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Result, error) {
+	sv.check(x0)
+	return sv.solve(ctx, newResult(sv.prob.N), x0, opts)
+}
+
+// SolveInto is Solve with caller-owned storage: it solves into dst, every
+// field of which it sets, and writes the point into dst.X's backing array
+// when dst.X has the capacity for N values (dst.X is then resliced to
+// length N), else into a new slice. It returns what Solve returns, the
+// error alone (dst is the Result). The iterates, the point and every
+// number are those of Solve for the same call, to the bit; only where the
+// Result lives differs, so that a caller solving many small systems (the
+// points of a sweep) allocates nothing per solve.
+//
+// The point returned in dst.X is overwritten by the next SolveInto into the
+// same storage: a caller that keeps it must copy it, or hand each call
+// storage of its own. x0 may be dst.X itself (its values are then replaced
+// by the point).
+func (sv *Solver) SolveInto(ctx context.Context, dst *Result, x0 []float64, opts *Options) error {
+	sv.check(x0)
+	n := sv.prob.N
+	x := dst.X
+	if cap(x) >= n {
+		x = x[:n]
+	} else {
+		x = make([]float64, n)
+	}
+	*dst = Result{X: x}
+	_, err := sv.solve(ctx, dst, x0, opts)
+	return err
+}
+
+// check panics when the Problem and x0 do not fit.
+func (sv *Solver) check(x0 []float64) {
 	prob := sv.prob
 	n := prob.N
 	if len(x0) != n || len(prob.RowPtr) != n+1 || prob.Residual == nil || prob.ResidualJacobian == nil {
 		panic("solve: Newton: Problem and x0 do not fit (N, RowPtr, x0, Residual, ResidualJacobian)")
 	}
+}
+
+// newResult returns a zero Result with X of length n; for a small n the
+// Result and its X are one allocation.
+func newResult(n int) *Result {
+	if n <= smallResult {
+		b := new(struct {
+			r Result
+			x [smallResult]float64
+		})
+		b.r.X = b.x[:n:n]
+		return &b.r
+	}
+	return &Result{X: make([]float64, n)}
+}
+
+// smallResult is the largest N whose Result and X are allocated together.
+const smallResult = 4
+
+// solve is Solve into res, whose X has length N (res.X may be x0 itself).
+func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Options) (*Result, error) {
+	prob := sv.prob
+	n := prob.N
 	s := sv.prepare(ctx, opts)
 
-	x := slices.Clone(x0)
+	x := res.X
+	copy(x, x0)
 	s.setBounds(x)
-	res := &Result{X: x}
 
 	// Structure first: a structurally singular system needs a different
 	// specification, not a better guess.

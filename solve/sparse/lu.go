@@ -174,7 +174,13 @@ func (f *LU) refactorValues(val []float64) error {
 		return f.bandFactor(val)
 	}
 	if f.p != nil && len(f.rpos) == len(f.ri) {
-		if err := f.refactor(val); err == nil {
+		var err error
+		if f.n == 2 {
+			err = f.refactor2(val)
+		} else {
+			err = f.refactor(val)
+		}
+		if err == nil {
 			f.refactored++
 			return nil
 		}
@@ -515,6 +521,20 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 		panic("sparse: solve with a failed factorisation")
 	}
 	if !trans {
+		if n == 2 {
+			f.solve2(dst, b)
+			return
+		}
+		f.solveN(dst, b, w)
+		return
+	}
+	f.solveTrans(dst, b, w)
+}
+
+// solveN is solve without transposition, for any order.
+func (f *LU) solveN(dst, b, w []float64) {
+	n := f.n
+	{
 		// P A Q = L U: w = P b; L z = w; U y = z; x = Q y. The index
 		// slices are cut to n and to each column so that the compiler
 		// can drop most bounds checks.
@@ -547,8 +567,12 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 		for k, c := range q {
 			dst[c] = w[k]
 		}
-		return
 	}
+}
+
+// solveTrans is solve with transposition, for any order.
+func (f *LU) solveTrans(dst, b, w []float64) {
+	n := f.n
 	// Aᵀ = Q Uᵀ Lᵀ P: w = Qᵀ b; Uᵀ z = w; Lᵀ y = z; x = Pᵀ y.
 	for k := range n {
 		w[k] = b[f.q[k]]
