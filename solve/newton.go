@@ -127,6 +127,8 @@ type solver struct {
 	t   float64   // homotopy parameter
 	f0  []float64 // F(x₀)
 
+	general bool // never the lean run (Solver.general, for tests)
+
 	iters    int
 	lastStep float64
 	method   string
@@ -159,6 +161,7 @@ type part struct {
 	a          sparse.CSR
 	src        []int // a.Val[k] = jval[src[k]]
 	whole      bool  // src is the identity: the part is the whole system
+	ident      bool  // rows and cols are 0..N-1 in order (the whole system, as given)
 	lu         *sparse.LU
 }
 
@@ -192,6 +195,7 @@ type Solver struct {
 	blocks  []*part // by block, made when first needed
 	work    *solver
 	pending *Pivots // for parts made after UsePivots
+	general bool    // never the lean run (for the tests that compare it with run)
 }
 
 // Forget drops the factorisations kept for KeepPivots: the next Solve
@@ -319,7 +323,7 @@ func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
 		s.colMap = filled(n, -1)
 		sv.work = s
 	}
-	s.ctx, s.prob, s.opt = ctx, prob, opts.resolve()
+	s.ctx, s.prob, s.opt, s.general = ctx, prob, opts.resolve(), sv.general
 	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled = 1, false, 0, 0, "", false
 	// The functions may give other values than at the last solve (new
 	// parameters behind them): forget the last evaluation.
@@ -393,7 +397,7 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 	s := sv.prepare(ctx, opts)
 
 	x := res.X
-	copy(x, x0)
+	copyf(x, x0)
 	s.setBounds(x)
 
 	// Structure first: a structurally singular system needs a different
@@ -422,7 +426,7 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 		return s.fail(res, x, outcome{status: EvalFailed, bad: -1, err: err,
 			reason: "the residual cannot be evaluated at the starting guess: " + err.Error()}, "newton")
 	}
-	copy(s.f0, s.cf)
+	copyf(s.f0, s.cf)
 	s.setScales()
 
 	if sv.full == nil {
@@ -446,7 +450,7 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 	if !s.opt.NoBlocks && len(st.Blocks) > 1 {
 		s.method = "newton+blocks"
 		y := s.y
-		copy(y, x)
+		copyf(y, x)
 		var out outcome
 		for b, blk := range st.Blocks {
 			if sv.blocks[b] == nil {
@@ -475,7 +479,7 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 	// 2. Newton on the whole system.
 	s.method = "newton"
 	y := s.y
-	copy(y, x)
+	copyf(y, x)
 	out := s.run(full, y, s.opt.FTol)
 	if out.ok() {
 		return s.done(res, y)
@@ -490,7 +494,7 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 	// 3. Homotopy from the guess.
 	if !s.opt.NoHomotopy {
 		s.method = "homotopy"
-		copy(y, x)
+		copyf(y, x)
 		out = s.homotopy(full, y)
 		if out.ok() {
 			return s.done(res, y)
@@ -518,47 +522,62 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 
 // setBounds fills lo, hi and typ and moves x strictly inside its bounds.
 func (s *solver) setBounds(x []float64) {
-	p := s.prob
-	for j := range s.n {
-		s.lo[j], s.hi[j] = math.Inf(-1), math.Inf(1)
-		if p.Lower != nil && !math.IsNaN(p.Lower[j]) {
-			s.lo[j] = p.Lower[j]
+	p, n := s.prob, s.n
+	x, lo, hi, typs := x[:n], s.lo[:n], s.hi[:n], s.typ[:n]
+	var lower, upper, typical []float64
+	if p.Lower != nil {
+		lower = p.Lower[:n]
+	}
+	if p.Upper != nil {
+		upper = p.Upper[:n]
+	}
+	if p.Typical != nil {
+		typical = p.Typical[:n]
+	}
+	inf := math.Inf(1)
+	for j, xj := range x {
+		l, h := -inf, inf
+		if lower != nil && !math.IsNaN(lower[j]) {
+			l = lower[j]
 		}
-		if p.Upper != nil && !math.IsNaN(p.Upper[j]) {
-			s.hi[j] = p.Upper[j]
+		if upper != nil && !math.IsNaN(upper[j]) {
+			h = upper[j]
 		}
+		lo[j], hi[j] = l, h
 		typ := 0.0
-		if p.Typical != nil && p.Typical[j] > 0 && !math.IsInf(p.Typical[j], 0) {
-			typ = p.Typical[j]
+		if typical != nil && typical[j] > 0 && !math.IsInf(typical[j], 0) {
+			typ = typical[j]
 		}
-		if typ == 0 && x[j] != 0 && !math.IsInf(x[j], 0) && !math.IsNaN(x[j]) {
-			typ = math.Abs(x[j])
+		if typ == 0 && xj != 0 && !math.IsInf(xj, 0) && !math.IsNaN(xj) {
+			typ = math.Abs(xj)
 		}
 		if typ == 0 {
-			for _, b := range []float64{s.lo[j], s.hi[j]} {
-				if !math.IsInf(b, 0) {
-					typ = max(typ, math.Abs(b))
-				}
+			if !math.IsInf(l, 0) {
+				typ = max(typ, math.Abs(l))
+			}
+			if !math.IsInf(h, 0) {
+				typ = max(typ, math.Abs(h))
 			}
 		}
 		if typ == 0 {
 			typ = 1
 		}
-		s.typ[j] = typ
+		typs[j] = typ
 		// Project the guess strictly inside.
-		if math.IsNaN(x[j]) || math.IsInf(x[j], 0) {
-			x[j] = 0
+		if math.IsNaN(xj) || math.IsInf(xj, 0) {
+			xj = 0
 		}
 		margin := 1e-8 * typ
-		if w := s.hi[j] - s.lo[j]; w < math.Inf(1) {
+		if w := h - l; w < inf {
 			margin = min(margin, 0.01*w)
 		}
-		if x[j] <= s.lo[j] {
-			x[j] = min(s.lo[j]+margin, s.lo[j]+0.5*(s.hi[j]-s.lo[j]))
+		if xj <= l {
+			xj = min(l+margin, l+0.5*(h-l))
 		}
-		if x[j] >= s.hi[j] {
-			x[j] = max(s.hi[j]-margin, s.lo[j]+0.5*(s.hi[j]-s.lo[j]))
+		if xj >= h {
+			xj = max(h-margin, l+0.5*(h-l))
 		}
+		x[j] = xj
 	}
 }
 
@@ -608,6 +627,10 @@ func (s *solver) newPart(block int, rows, cols []int) *part {
 	for k, p := range pt.src {
 		pt.whole = pt.whole && p == k
 	}
+	pt.ident = len(rows) == s.n && len(cols) == s.n
+	for l := range rows {
+		pt.ident = pt.ident && rows[l] == l && cols[l] == l
+	}
 	return pt
 }
 
@@ -623,9 +646,22 @@ func (s *solver) evalAt(x []float64) error {
 	if err := s.prob.ResidualJacobian(s.cf, s.jval, x); err != nil {
 		return err
 	}
-	copy(s.cx, x)
+	copyf(s.cx, x)
 	s.cOK = true
 	return nil
+}
+
+// copyf is copy(dst, src) for slices of the same length, by a loop for
+// the few values of a small system, where calling memmove costs more.
+func copyf(dst, src []float64) {
+	if len(src) <= 4 {
+		dst = dst[:len(src)]
+		for i, v := range src {
+			dst[i] = v
+		}
+		return
+	}
+	copy(dst, src)
 }
 
 func sameBits(a, b []float64) bool {
@@ -640,7 +676,7 @@ func sameBits(a, b []float64) bool {
 // residual evaluates F (minus (1-t)F(x₀) in the homotopy) into f.
 func (s *solver) residual(f, x []float64) error {
 	if s.cOK && sameBits(x, s.cx) {
-		copy(f, s.cf)
+		copyf(f, s.cf)
 	} else if err := s.prob.Residual(f, x); err != nil {
 		return err
 	}
@@ -654,7 +690,7 @@ func (s *solver) residualJacobian(f, x []float64) error {
 	if err := s.evalAt(x); err != nil {
 		return err
 	}
-	copy(f, s.cf)
+	copyf(f, s.cf)
 	s.shift(f)
 	return nil
 }
@@ -670,12 +706,32 @@ func (s *solver) shift(f []float64) {
 // measure returns the scaled max norm and the merit ½‖F_s‖² over the rows
 // of pt; a non-finite residual gives +Inf.
 func (s *solver) measure(pt *part, f []float64) (norm, phi float64) {
+	if pt.ident {
+		return s.measureAll(f)
+	}
 	for _, r := range pt.rows {
 		v := f[r] / s.scale[r]
 		if math.IsNaN(v) {
 			return math.Inf(1), math.Inf(1)
 		}
 		if a := math.Abs(v); a > norm { // max without its NaN handling: v is a number
+			norm = a
+		}
+		phi += 0.5 * v * v
+	}
+	return norm, phi
+}
+
+// measureAll is measure for a part whose rows are 0..N-1 in order: the
+// same sums in the same order, without the indirection through the rows.
+func (s *solver) measureAll(f []float64) (norm, phi float64) {
+	scale := s.scale[:len(f)]
+	for r, fr := range f {
+		v := fr / scale[r]
+		if v != v {
+			return math.Inf(1), math.Inf(1)
+		}
+		if a := math.Abs(v); a > norm {
 			norm = a
 		}
 		phi += 0.5 * v * v
@@ -699,6 +755,9 @@ func (s *solver) normOf(f []float64) float64 {
 
 // run is damped Newton on one part, from x (updated in place).
 func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
+	if s.lean(pt) {
+		return s.runAll(pt, x, ftol)
+	}
 	small := 0
 	for it := 0; ; it++ {
 		if err := s.ctx.Err(); err != nil {
@@ -802,12 +861,7 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 		}
 		if !ok {
 			if !(amax > 1e-12) {
-				side, b := "lower", s.lo[blocking]
-				if up {
-					side, b = "upper", s.hi[blocking]
-				}
-				return outcome{status: HitBound, bad: blocking,
-					reason: fmt.Sprintf("hit bound: unknown %s sits on its %s bound %s and the Newton step points beyond it", s.varName(blocking), side, s.value(blocking, b))}
+				return s.hitBound(blocking, up)
 			}
 			alpha, ok = s.lineSearch(pt, x, d, amax, phi)
 			dc = d
@@ -847,7 +901,7 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 // where the residual cannot be evaluated cuts by 4. On success s.xtry and
 // s.ftry hold the accepted point.
 func (s *solver) lineSearch(pt *part, x, dir []float64, amax, phi float64) (float64, bool) {
-	copy(s.xtry, x)
+	copyf(s.xtry, x)
 	alpha := amax
 	for first := true; alpha >= 1e-10; first = false {
 		for l, c := range pt.cols {
@@ -924,7 +978,7 @@ func (s *solver) homotopy(full *part, x []float64) outcome {
 }
 
 func (s *solver) done(res *Result, x []float64) (*Result, error) {
-	copy(res.X, x)
+	copyf(res.X, x)
 	res.Status = Converged
 	res.Method = s.method
 	s.finish(res)
@@ -932,7 +986,7 @@ func (s *solver) done(res *Result, x []float64) (*Result, error) {
 }
 
 func (s *solver) canceled(res *Result, x []float64) (*Result, error) {
-	copy(res.X, x)
+	copyf(res.X, x)
 	res.Status = Canceled
 	res.Method = s.method
 	s.finish(res)
@@ -957,7 +1011,7 @@ func (s *solver) finish(res *Result) {
 
 // fail builds the NotConverged error at x, the best point reached.
 func (s *solver) fail(res *Result, x []float64, out outcome, method string) (*Result, error) {
-	copy(res.X, x)
+	copyf(res.X, x)
 	res.Status = out.status
 	res.Method = method
 	if !s.scaled {
