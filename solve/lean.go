@@ -56,6 +56,7 @@ func (s *solver) runAll(pt *part, x []float64, ftol float64) outcome {
 		}
 		measured = false
 		if norm <= ftol || (small > 0 && norm <= math.Sqrt(ftol)) {
+			s.conv, s.convNorm = true, norm
 			return outcome{status: Converged, bad: -1}
 		}
 		if math.IsInf(norm, 0) {

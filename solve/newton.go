@@ -128,6 +128,10 @@ type solver struct {
 	f0  []float64 // F(x₀)
 
 	general bool // never the lean run (Solver.general, for tests)
+	// After a lean run that converged, until the next run: s.f holds F at
+	// the point reached (unshifted) and convNorm its scaled max norm.
+	conv     bool
+	convNorm float64
 
 	iters    int
 	lastStep float64
@@ -324,7 +328,7 @@ func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
 		sv.work = s
 	}
 	s.ctx, s.prob, s.opt, s.general = ctx, prob, opts.resolve(), sv.general
-	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled = 1, false, 0, 0, "", false
+	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled, s.conv = 1, false, 0, 0, "", false, false
 	// The functions may give other values than at the last solve (new
 	// parameters behind them): forget the last evaluation.
 	s.cOK = false
@@ -436,8 +440,13 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 	full := sv.full
 	var reasons []string
 	var best []float64 // the best point of the failed attempts (nil: x)
-	bestNorm := s.normOf(s.f0)
+	// The norm at the guess, for keep; taken when first needed (neither
+	// F(x₀) nor the scales change during the solve).
+	bestNorm, haveNorm := 0.0, false
 	keep := func(y []float64) {
+		if !haveNorm {
+			bestNorm, haveNorm = s.normOf(s.f0), true
+		}
 		if err := s.residual(s.ftry, y); err == nil {
 			if nm := s.normOf(s.ftry); nm < bestNorm {
 				bestNorm = nm
@@ -584,21 +593,27 @@ func (s *solver) setBounds(x []float64) {
 // setScales sets each equation's scale from the Jacobian at the guess
 // (in s.jval): the largest |∂F_i/∂x_j|·typical_j, 1 when that is zero.
 func (s *solver) setScales() {
-	p := s.prob
-	for i := range s.n {
+	p, n := s.prob, s.n
+	rowPtr, scale, typ := p.RowPtr[:n+1], s.scale[:n], s.typ[:n]
+	nnz := rowPtr[n]
+	colIdx, jval := p.ColIdx[:nnz], s.jval[:nnz]
+	k0 := rowPtr[0]
+	for i := range scale {
+		k1 := rowPtr[i+1]
 		m := 0.0
-		cols, vals := p.ColIdx[p.RowPtr[i]:p.RowPtr[i+1]], s.jval[p.RowPtr[i]:p.RowPtr[i+1]]
-		for k, c := range cols {
+		vals := jval[k0:k1]
+		for k, c := range colIdx[k0:k1] {
 			// max(m, v) for v >= 0 or NaN, NaN once either is, as the
 			// built-in gives it, without its call.
-			if v := math.Abs(vals[k]) * s.typ[c]; v > m || v != v {
+			if v := math.Abs(vals[k]) * typ[c]; v > m || v != v {
 				m = v
 			}
 		}
 		if m == 0 || math.IsInf(m, 0) || math.IsNaN(m) {
 			m = 1
 		}
-		s.scale[i] = m
+		scale[i] = m
+		k0 = k1
 	}
 	s.scaled = true
 }
@@ -755,6 +770,7 @@ func (s *solver) normOf(f []float64) float64 {
 
 // run is damped Newton on one part, from x (updated in place).
 func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
+	s.conv = false
 	if s.lean(pt) {
 		return s.runAll(pt, x, ftol)
 	}
@@ -997,6 +1013,16 @@ func (s *solver) finish(res *Result) {
 	res.Iterations = s.iters
 	res.StepNorm = s.lastStep
 	res.ResidualNorm, res.ScaledResidualNorm = math.NaN(), math.NaN()
+	if s.conv {
+		// res.X is the point the lean run converged at: F there is in
+		// s.f, and its scaled norm was measured.
+		m := 0.0
+		for _, v := range s.f {
+			m = max(m, math.Abs(v))
+		}
+		res.ResidualNorm, res.ScaledResidualNorm = m, s.convNorm
+		return
+	}
 	if err := s.residual(s.ftry, res.X); err == nil {
 		m := 0.0
 		for _, v := range s.ftry {

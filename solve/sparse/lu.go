@@ -60,6 +60,10 @@ type LU struct {
 	refactored int       // numeric refactorisations that kept the pivots
 	fresh      int       // factorisations that chose pivots
 
+	// The order-2 path (small.go): the places of the few entries, set
+	// with the pivots when n = 2.
+	two plan2
+
 	// Band mode (band.go): when banded, bd holds the factors and the
 	// sparse symbolic and numeric fields above are unused.
 	banded bool
@@ -148,6 +152,7 @@ func (f *LU) CopyFrom(src *LU) {
 	f.anorm = src.anorm
 	f.refactored, f.fresh = 0, 0
 	f.banded = src.banded
+	f.two = src.two
 	if src.banded {
 		f.bd.copyFrom(&src.bd)
 	} else {
@@ -210,6 +215,7 @@ func (f *LU) analyze(a *CSR) {
 	f.rowPtr = slices.Clone(a.RowPtr)
 	f.colIdx = slices.Clone(a.ColIdx[:nnz])
 	f.q, f.pref = order(a, f.how)
+	f.two.ok = false
 	f.p = nil
 	if f.chooseBand(a) {
 		f.cp, f.ri, f.csrPos, f.cval, f.rpos = nil, nil, nil, nil, nil
@@ -273,6 +279,7 @@ func (f *LU) factor() error {
 
 func (f *LU) eliminate() error {
 	f.fresh++
+	f.two.ok = false
 	n := f.n
 	f.pinv = filled(n, -1)
 	f.p = make([]int, n)
@@ -393,6 +400,9 @@ func (f *LU) eliminate() error {
 	f.rpos = f.rpos[:0]
 	for _, r := range f.ri {
 		f.rpos = append(f.rpos, f.pinv[r])
+	}
+	if n == 2 {
+		f.plan2()
 	}
 	return nil
 }

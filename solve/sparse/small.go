@@ -8,34 +8,79 @@ import "math"
 // same operations on the same values in the same order, skipped where the
 // general code skips them (entries outside the patterns of L and U, zero
 // right-hand sides), so that their results are those of the general code
-// to the bit (TestSmallPathsMatchGeneral compares them).
+// to the bit (TestSmallPathsMatchGeneral compares them). They read the
+// places of the entries from a plan2 made with the pivots.
 //
 // With n = 2 the pattern is small enough to write out: column 0 of the
 // elimination has no U entries above its pivot and at most one L entry
 // (position 1) below; column 1 has at most one U entry (position 0) and no L
 // entries.
 
-// refactor2 is refactor for n = 2.
-func (f *LU) refactor2(val []float64) error {
-	cp, csrPos, rpos, cval := f.cp, f.csrPos, f.rpos, f.cval
-	lp, up, li, ui := f.lp[:3], f.up[:3], f.li, f.ui
-	q := f.q[:2]
-	udiag := f.udiag[:2]
-	hasL := lp[1] > lp[0] // L(1,0) is in the pattern
-	if hasL && li[lp[0]] != 1 || lp[2] != lp[1] || up[1] != up[0] || up[2]-up[1] > 1 || up[2] > up[1] && ui[up[1]] != 0 {
-		return f.refactor(val) // not the shape described above: cannot happen
+// plan2 holds, for n = 2, where refactor2 and solve2 find what they need.
+type plan2 struct {
+	ok         bool
+	hasL, hasU bool   // L(1,0) and U(0,1) are in the patterns
+	l, u       int    // their places in lx and ux
+	ne         [2]int // entries of A in column q[k] of the elimination
+	src        [2][2]int
+	pos        [2][2]int // their places in the CSR values and pivot positions, in CSC order
+	p, q       [2]int
+}
+
+// plan2 makes f.two from the pivots and patterns of a sparse-mode
+// factorisation of order 2; it leaves f.two.ok false when they are not of
+// the shape described above (which does not happen).
+func (f *LU) plan2() {
+	t := plan2{}
+	f.two = t
+	if f.n != 2 || f.banded || len(f.p) != 2 || len(f.lp) != 3 || len(f.up) != 3 || len(f.rpos) != len(f.ri) {
+		return
 	}
-	hasU := up[2] > up[1] // U(0,1) is in the pattern
+	lp, up := f.lp, f.up
+	if lp[0] != 0 || lp[2] != lp[1] || lp[1] > 1 || up[1] != 0 || up[2] > 1 {
+		return
+	}
+	t.hasL, t.hasU = lp[1] == 1, up[2] == 1
+	if t.hasL && f.li[0] != 1 || t.hasU && f.ui[0] != 0 {
+		return
+	}
+	t.l, t.u = 0, 0
+	for k := range 2 {
+		col := f.q[k]
+		c0, c1 := f.cp[col], f.cp[col+1]
+		if c1-c0 > 2 || c1 <= c0 {
+			return
+		}
+		t.ne[k] = c1 - c0
+		for e := range c1 - c0 {
+			t.src[k][e] = f.csrPos[c0+e]
+			t.pos[k][e] = f.rpos[c0+e]
+			if t.pos[k][e] != 0 && t.pos[k][e] != 1 {
+				return
+			}
+		}
+		t.p[k], t.q[k] = f.p[k], col
+	}
+	t.ok = true
+	f.two = t
+}
+
+// refactor2 is refactor for n = 2, without the copy of the values in CSC
+// order (cval), which only a fresh factorisation reads, after gather has
+// written it again.
+func (f *LU) refactor2(val []float64) error {
+	t := &f.two
+	if !t.ok {
+		return f.refactor(val)
+	}
+	tau := f.tau
 
 	// Column 0 of the elimination.
 	var x [2]float64
-	col := q[0]
 	scale, sum := 0.0, 0.0
-	c0, c1 := cp[col], cp[col+1]
-	for pc := c0; pc < c1; pc++ {
-		v := val[csrPos[pc]]
-		cval[pc] = v
-		x[rpos[pc]&1] = v
+	for e := range t.ne[0] & 3 {
+		v := val[t.src[0][e&1]]
+		x[t.pos[0][e&1]&1] = v
 		scale = maxAbs(scale, v)
 		sum += math.Abs(v)
 	}
@@ -46,68 +91,68 @@ func (f *LU) refactor2(val []float64) error {
 	pivot := x[0]
 	ap := math.Abs(pivot)
 	amax := ap
-	if hasL {
+	if t.hasL {
 		amax = maxAbs(amax, x[1])
 	}
-	if !(ap >= f.tau*amax) || !(ap > tiny*maxAbs(scale, amax)) || ap > math.MaxFloat64 {
+	if !(ap >= tau*amax) || !(ap > tiny*maxAbs(scale, amax)) || ap > math.MaxFloat64 {
 		return errPivot
 	}
-	udiag[0] = pivot
+	u00 := pivot
 	var l10 float64
-	if hasL {
+	if t.hasL {
 		l10 = x[1] / pivot
-		f.lx[lp[0]] = l10
 	}
 
 	// Column 1.
 	x = [2]float64{}
-	col = q[1]
 	scale, sum = 0.0, 0.0
-	c0, c1 = cp[col], cp[col+1]
-	for pc := c0; pc < c1; pc++ {
-		v := val[csrPos[pc]]
-		cval[pc] = v
-		x[rpos[pc]&1] = v
+	for e := range t.ne[1] & 3 {
+		v := val[t.src[1][e&1]]
+		x[t.pos[1][e&1]&1] = v
 		scale = maxAbs(scale, v)
 		sum += math.Abs(v)
 	}
 	if sum > anorm || math.IsNaN(sum) {
 		anorm = sum
 	}
-	if hasU {
+	if t.hasU {
 		xj := x[0]
-		f.ux[up[1]] = xj
+		f.ux[t.u] = xj
 		scale = maxAbs(scale, xj)
-		if hasL {
+		if t.hasL {
 			x[1] -= l10 * xj
 		}
 	}
+	if t.hasL {
+		f.lx[t.l] = l10
+	}
+	f.udiag[0] = u00
 	pivot = x[1]
 	ap = math.Abs(pivot)
 	amax = ap
-	if !(ap >= f.tau*amax) || !(ap > tiny*maxAbs(scale, amax)) || ap > math.MaxFloat64 {
+	if !(ap >= tau*amax) || !(ap > tiny*maxAbs(scale, amax)) || ap > math.MaxFloat64 {
 		return errPivot
 	}
-	udiag[1] = pivot
+	f.udiag[1] = pivot
 	f.anorm = anorm
 	return nil
 }
 
 // solve2 is solveN for n = 2.
 func (f *LU) solve2(dst, b []float64) {
-	p, q, lp, up, udiag := f.p[:2], f.q[:2], f.lp[:3], f.up[:3], f.udiag[:2]
-	w0, w1 := b[p[0]], b[p[1]]
-	if w0 != 0 {
-		for pp := lp[0]; pp < lp[1]; pp++ { // at most one entry, at position 1
-			w1 -= f.lx[pp] * w0
-		}
+	t := &f.two
+	if !t.ok {
+		f.solveN(dst, b, make([]float64, 2))
+		return
 	}
-	w1 /= udiag[1]
-	if w1 != 0 {
-		for pp := up[1]; pp < up[2]; pp++ { // at most one entry, at position 0
-			w0 -= f.ux[pp] * w1
-		}
+	w0, w1 := b[t.p[0]], b[t.p[1]]
+	if w0 != 0 && t.hasL {
+		w1 -= f.lx[t.l] * w0
 	}
-	w0 /= udiag[0]
-	dst[q[0]], dst[q[1]] = w0, w1
+	w1 /= f.udiag[1]
+	if w1 != 0 && t.hasU {
+		w0 -= f.ux[t.u] * w1
+	}
+	w0 /= f.udiag[0]
+	dst[t.q[0]], dst[t.q[1]] = w0, w1
 }
