@@ -96,27 +96,28 @@ func (s *solver) runAll(pt *part, x []float64, ftol float64) outcome {
 		}
 		pt.lu.SolveWith(s.w[:n], d, d)
 
-		// Bounds, as run takes them.
+		// Bounds, as run takes them. run divides room by the step for
+		// every bounded component; here only where the step is longer
+		// than the room: elsewhere the quotient is at least 1 (or NaN), so
+		// not below amax, which never exceeds 1.
 		dc := s.dc[:n]
 		clipped := false
 		amax, blocking, up := 1.0, -1, false
 		for c, dl := range d {
 			dc[c] = dl
 			if dl < 0 && lo[c] > math.Inf(-1) {
-				room := 0.995 * (x[c] - lo[c])
-				if -dl > room {
+				if room := 0.995 * (x[c] - lo[c]); -dl > room {
 					dc[c], clipped = -room, true
-				}
-				if lim := room / -dl; lim < amax {
-					amax, blocking, up = lim, c, false
+					if lim := room / -dl; lim < amax {
+						amax, blocking, up = lim, c, false
+					}
 				}
 			} else if dl > 0 && hi[c] < math.Inf(1) {
-				room := 0.995 * (hi[c] - x[c])
-				if dl > room {
+				if room := 0.995 * (hi[c] - x[c]); dl > room {
 					dc[c], clipped = room, true
-				}
-				if lim := room / dl; lim < amax {
-					amax, blocking, up = lim, c, true
+					if lim := room / dl; lim < amax {
+						amax, blocking, up = lim, c, true
+					}
 				}
 			}
 		}

@@ -158,8 +158,8 @@ func modelProblem(t *testing.T, file string) (*Problem, []float64) {
 
 // TestLeanRunMatchesRun compares the lean run with the general one, bit
 // for bit and evaluation by evaluation, on the models of testdata and of
-// the library's templates, solved as a sweep solves them, and on the small
-// problems of the other tests that end in each kind of failure.
+// the library's templates, solved as a sweep solves them, and on small
+// problems that end in each kind of failure or step against a bound.
 func TestLeanRunMatchesRun(t *testing.T) {
 	files, _ := filepath.Glob(filepath.Join("..", "library", "templates", "*.yaml"))
 	files = append(files, filepath.Join("..", "testdata", "models", "syrup.yaml"), filepath.Join("..", "testdata", "models", "column.yaml"))
@@ -181,7 +181,7 @@ func TestLeanRunMatchesRun(t *testing.T) {
 		p.Lower, p.Upper = []float64{lo}, []float64{hi}
 		return p
 	}
-	failures := []struct {
+	cases := []struct {
 		name string
 		p    *Problem
 		x0   []float64
@@ -191,6 +191,8 @@ func TestLeanRunMatchesRun(t *testing.T) {
 		{"guess on a bound", one(func(f, x []float64) { f[0] = x[0]*(x[0]+1) - 2 }, func(_, _ int, x []float64) float64 { return 2*x[0] + 1 }, 0, math.Inf(1)), []float64{0}},
 		{"flat far away", one(func(f, x []float64) { f[0] = math.Atan(x[0] - 1) }, func(_, _ int, x []float64) float64 { return 1 / (1 + (x[0]-1)*(x[0]-1)) }, math.Inf(-1), math.Inf(1)), []float64{100}},
 		{"not finite", one(func(f, x []float64) { f[0] = math.Log(x[0]) + 3 }, func(_, _ int, x []float64) float64 { return 1 / x[0] }, math.Inf(-1), math.Inf(1)), []float64{2}},
+		{"near an upper bound", one(func(f, x []float64) { f[0] = x[0] - 0.999 }, func(_, _ int, _ []float64) float64 { return 1 }, 0, 1), []float64{0.5}},
+		{"beyond an upper bound", one(func(f, x []float64) { f[0] = math.Exp(x[0]) - 3 }, func(_, _ int, x []float64) float64 { return math.Exp(x[0]) }, -1, 1), []float64{0.2}},
 		{"singular", testProblem([][]int{{0, 1}, {0, 1}},
 			func(f, x []float64) { f[0] = x[0] + x[1] - 1; f[1] = 2*x[0] + 2*x[1] - 3 },
 			func(i, _ int, _ []float64) float64 { return float64(i + 1) }), []float64{0, 0}},
@@ -203,7 +205,7 @@ func TestLeanRunMatchesRun(t *testing.T) {
 				return []float64{1, -3}[j]
 			}), []float64{5, 0.1}},
 	}
-	for _, c := range failures {
+	for _, c := range cases {
 		for _, opts := range []*Options{nil, {NoBlocks: true}, {NoBlocks: true, NoHomotopy: true, MaxIter: 8}, {MaxIter: 2}} {
 			lp := newLeanPair(t, c.name, c.p, true)
 			lp.solve(fmt.Sprintf("options %+v", opts), c.x0, opts)
