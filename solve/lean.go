@@ -23,8 +23,11 @@ import (
 //     sets.
 //
 // It makes the same evaluations in the same order, takes the same steps and
-// the same decisions as run, and returns the same outcome, to the bit
-// (TestLeanRunMatchesRun compares them, evaluation by evaluation).
+// the same decisions as run, and ends with the same outcome, to the bit
+// (TestLeanRunMatchesRun compares them, evaluation by evaluation). It leaves
+// the outcome in s.out rather than returning it: the Go compiler copies a
+// returned outcome through the stack on the way to the caller, which costs
+// more than the rest of a converged run's ending.
 
 // lean reports whether runAll may stand in for run on pt.
 func (s *solver) lean(pt *part) bool {
@@ -32,8 +35,9 @@ func (s *solver) lean(pt *part) bool {
 }
 
 // runAll is run on a part with pt.ident, outside the homotopy, without a
-// Recorder (see lean).
-func (s *solver) runAll(pt *part, x []float64, ftol float64) outcome {
+// Recorder (see lean). It leaves the outcome in s.out and reports whether
+// it converged (returning an outcome costs copies of it on the way).
+func (s *solver) runAll(pt *part, x []float64, ftol float64) bool {
 	n := s.n
 	x = x[:n]
 	f, lo, hi, typ := s.f[:n], s.lo[:n], s.hi[:n], s.typ[:n]
@@ -42,7 +46,7 @@ func (s *solver) runAll(pt *part, x []float64, ftol float64) outcome {
 	measured := false // norm and phi are those of F at x already
 	for it := 0; ; it++ {
 		if err := s.ctx.Err(); err != nil {
-			return outcome{status: Canceled, reason: err.Error(), bad: -1, err: err}
+			return s.stop(outcome{status: Canceled, reason: err.Error(), bad: -1, err: err})
 		}
 		if measured {
 			// The line search's first trial, evaluated with the Jacobian:
@@ -50,25 +54,26 @@ func (s *solver) runAll(pt *part, x []float64, ftol float64) outcome {
 			copyf(f, s.cf)
 		} else {
 			if err := s.residualJacobian(f, x); err != nil {
-				return outcome{status: EvalFailed, bad: -1, err: err, reason: "cannot evaluate the residual: " + err.Error()}
+				return s.stop(outcome{status: EvalFailed, bad: -1, err: err, reason: "cannot evaluate the residual: " + err.Error()})
 			}
 			norm, phi = s.measureAll(f)
 		}
 		measured = false
 		if norm <= ftol || (small > 0 && norm <= math.Sqrt(ftol)) {
 			s.conv, s.convNorm = true, norm
-			return outcome{status: Converged, bad: -1}
+			s.out.status, s.out.bad, s.out.reason, s.out.err = Converged, -1, "", nil
+			return true
 		}
 		if math.IsInf(norm, 0) {
-			return outcome{status: EvalFailed, bad: -1, reason: "the residual is not finite"}
+			return s.stop(outcome{status: EvalFailed, bad: -1, reason: "the residual is not finite"})
 		}
 		if small >= 3 {
-			return outcome{status: LineSearchFailed, bad: -1,
-				reason: fmt.Sprintf("steps too small to make progress (scaled residual %.3g)", norm)}
+			return s.stop(outcome{status: LineSearchFailed, bad: -1,
+				reason: fmt.Sprintf("steps too small to make progress (scaled residual %.3g)", norm)})
 		}
 		if it >= s.opt.MaxIter {
-			return outcome{status: IterationLimit, bad: -1,
-				reason: fmt.Sprintf("no convergence in %d iterations (scaled residual %.3g)", s.opt.MaxIter, norm)}
+			return s.stop(outcome{status: IterationLimit, bad: -1,
+				reason: fmt.Sprintf("no convergence in %d iterations (scaled residual %.3g)", s.opt.MaxIter, norm)})
 		}
 
 		// Newton direction: J d = -F.
@@ -87,8 +92,8 @@ func (s *solver) runAll(pt *part, x []float64, ftol float64) outcome {
 			if errors.As(err, &se) {
 				bad = se.Col
 			}
-			return outcome{status: SingularJacobian, bad: bad, err: err,
-				reason: "singular Jacobian at unknown " + s.varName(bad)}
+			return s.stop(outcome{status: SingularJacobian, bad: bad, err: err,
+				reason: "singular Jacobian at unknown " + s.varName(bad)})
 		}
 		d := s.d[:n]
 		for i, v := range f {
@@ -137,14 +142,14 @@ func (s *solver) runAll(pt *part, x []float64, ftol float64) outcome {
 		}
 		if !ok {
 			if !(amax > 1e-12) {
-				return s.hitBound(blocking, up)
+				return s.stop(s.hitBound(blocking, up))
 			}
 			alpha, ok, nrmT, phiT, measured = s.lineSearchAll(x, d, amax, phi)
 			dc = d
 		}
 		if !ok {
-			return outcome{status: LineSearchFailed, bad: -1,
-				reason: fmt.Sprintf("line search failed: no step along the Newton direction reduces the residual (scaled residual %.3g)", norm)}
+			return s.stop(outcome{status: LineSearchFailed, bad: -1,
+				reason: fmt.Sprintf("line search failed: no step along the Newton direction reduces the residual (scaled residual %.3g)", norm)})
 		}
 		norm, phi = nrmT, phiT // used only when measured
 		d = dc
@@ -205,6 +210,13 @@ func (s *solver) lineSearchAll(x, dir []float64, amax, phi float64) (alpha float
 		alpha = next
 	}
 	return 0, false, 0, 0, false
+}
+
+// stop sets s.out to out and returns false: runAll's end without
+// convergence.
+func (s *solver) stop(out outcome) bool {
+	s.out = out
+	return false
 }
 
 // hitBound is the outcome of a step that a bound the iterate sits on

@@ -89,10 +89,12 @@ type Result struct {
 	Blocks             int     // strongly connected blocks of the system
 }
 
-func (o *Options) resolve() Options {
-	var r Options
+// resolveInto sets *r to o with the defaults filled in.
+func (o *Options) resolveInto(r *Options) {
 	if o != nil {
-		r = *o
+		*r = *o
+	} else {
+		*r = Options{}
 	}
 	if r.MaxIter <= 0 {
 		r.MaxIter = 50
@@ -106,7 +108,6 @@ func (o *Options) resolve() Options {
 	if r.HomotopySteps <= 0 {
 		r.HomotopySteps = 200
 	}
-	return r
 }
 
 // solver holds the work of one Newton call.
@@ -132,6 +133,7 @@ type solver struct {
 	// the point reached (unshifted) and convNorm its scaled max norm.
 	conv     bool
 	convNorm float64
+	out      outcome // of the last runOK or runAll
 
 	iters    int
 	lastStep float64
@@ -327,7 +329,8 @@ func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
 		s.colMap = filled(n, -1)
 		sv.work = s
 	}
-	s.ctx, s.prob, s.opt, s.general = ctx, prob, opts.resolve(), sv.general
+	s.ctx, s.prob, s.general = ctx, prob, sv.general
+	opts.resolveInto(&s.opt)
 	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled, s.conv = 1, false, 0, 0, "", false, false
 	// The functions may give other values than at the last solve (new
 	// parameters behind them): forget the last evaluation.
@@ -489,10 +492,10 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 	s.method = "newton"
 	y := s.y
 	copyf(y, x)
-	out := s.run(full, y, s.opt.FTol)
-	if out.ok() {
+	if s.runOK(full, y, s.opt.FTol) {
 		return s.done(res, y)
 	}
+	out := s.out
 	if out.status == Canceled {
 		return s.canceled(res, y)
 	}
@@ -768,11 +771,23 @@ func (s *solver) normOf(f []float64) float64 {
 	return m
 }
 
+// runOK is run, with its outcome left in s.out: it reports whether the run
+// converged, without the copies of the outcome that a caller of run makes.
+func (s *solver) runOK(pt *part, x []float64, ftol float64) bool {
+	if s.lean(pt) {
+		s.conv = false
+		return s.runAll(pt, x, ftol)
+	}
+	s.out = s.run(pt, x, ftol)
+	return s.out.status == Converged
+}
+
 // run is damped Newton on one part, from x (updated in place).
 func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 	s.conv = false
 	if s.lean(pt) {
-		return s.runAll(pt, x, ftol)
+		s.runAll(pt, x, ftol)
+		return s.out
 	}
 	small := 0
 	for it := 0; ; it++ {
