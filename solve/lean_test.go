@@ -213,3 +213,49 @@ func TestLeanRunMatchesRun(t *testing.T) {
 		}
 	}
 }
+
+// TestSolveIntoStorage: SolveInto writes the point into dst.X's backing
+// array when it is large enough (and into a new slice when not), accepts
+// x0 as dst.X itself, gives what Solve gives, and allocates nothing on a
+// warm solve of a small system.
+func TestSolveIntoStorage(t *testing.T) {
+	p, x0 := modelProblem(t, filepath.Join("..", "testdata", "models", "syrup.yaml"))
+	q := *p
+	q.Typical = nil
+	ref, err := NewSolver(&q).Solve(context.Background(), x0, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sol := NewSolver(&q)
+	buf := make([]float64, 5)
+	res := Result{X: buf[1:1]}
+	if err := sol.SolveInto(context.Background(), &res, x0, nil); err != nil {
+		t.Fatal(err)
+	}
+	if d := sameResult(&res, ref); d != "" {
+		t.Fatalf("SolveInto and Solve differ: %s", d)
+	}
+	if &res.X[0] != &buf[1] || len(res.X) != 2 {
+		t.Errorf("the point is not in the storage given")
+	}
+	small := Result{X: make([]float64, 1)}
+	if err := sol.SolveInto(context.Background(), &small, x0, nil); err != nil || len(small.X) != 2 || sameResult(&small, ref) != "" {
+		t.Errorf("with too little storage: %v, %v", err, small.X)
+	}
+	same := Result{X: append([]float64(nil), x0...)}
+	if err := sol.SolveInto(context.Background(), &same, same.X, nil); err != nil || sameResult(&same, ref) != "" {
+		t.Errorf("with x0 = dst.X: %v, %v (want %v)", err, same.X, ref.X)
+	}
+
+	sol.KeepPivots = true
+	warm := []float64{ref.X[0] * (1 + 1e-4), ref.X[1] * (1 - 1e-4)}
+	fast := &Options{NoBlocks: true, NoHomotopy: true, MaxIter: 8}
+	allocs := testing.AllocsPerRun(20, func() {
+		if err := sol.SolveInto(context.Background(), &res, warm, fast); err != nil {
+			t.Fatal(err)
+		}
+	})
+	if allocs != 0 {
+		t.Errorf("a warm SolveInto allocates %v times", allocs)
+	}
+}
