@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"slices"
 	"sort"
 	"strings"
 
@@ -90,10 +89,12 @@ type Result struct {
 	Blocks             int     // strongly connected blocks of the system
 }
 
-func (o *Options) resolve() Options {
-	var r Options
+// resolveInto sets *r to o with the defaults filled in.
+func (o *Options) resolveInto(r *Options) {
 	if o != nil {
-		r = *o
+		*r = *o
+	} else {
+		*r = Options{}
 	}
 	if r.MaxIter <= 0 {
 		r.MaxIter = 50
@@ -107,7 +108,6 @@ func (o *Options) resolve() Options {
 	if r.HomotopySteps <= 0 {
 		r.HomotopySteps = 200
 	}
-	return r
 }
 
 // solver holds the work of one Newton call.
@@ -127,6 +127,13 @@ type solver struct {
 	hom bool      // subtract (1-t) F(x₀)
 	t   float64   // homotopy parameter
 	f0  []float64 // F(x₀)
+
+	general bool // never the lean run (Solver.general, for tests)
+	// After a lean run that converged, until the next run: s.f holds F at
+	// the point reached (unshifted) and convNorm its scaled max norm.
+	conv     bool
+	convNorm float64
+	out      outcome // of the last runOK or runAll
 
 	iters    int
 	lastStep float64
@@ -160,6 +167,7 @@ type part struct {
 	a          sparse.CSR
 	src        []int // a.Val[k] = jval[src[k]]
 	whole      bool  // src is the identity: the part is the whole system
+	ident      bool  // rows and cols are 0..N-1 in order (the whole system, as given)
 	lu         *sparse.LU
 }
 
@@ -193,6 +201,7 @@ type Solver struct {
 	blocks  []*part // by block, made when first needed
 	work    *solver
 	pending *Pivots // for parts made after UsePivots
+	general bool    // never the lean run (for the tests that compare it with run)
 }
 
 // Forget drops the factorisations kept for KeepPivots: the next Solve
@@ -320,8 +329,9 @@ func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
 		s.colMap = filled(n, -1)
 		sv.work = s
 	}
-	s.ctx, s.prob, s.opt = ctx, prob, opts.resolve()
-	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled = 1, false, 0, 0, "", false
+	s.ctx, s.prob, s.general = ctx, prob, sv.general
+	opts.resolveInto(&s.opt)
+	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled, s.conv = 1, false, 0, 0, "", false, false
 	// The functions may give other values than at the last solve (new
 	// parameters behind them): forget the last evaluation.
 	s.cOK = false
@@ -330,16 +340,72 @@ func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
 
 // Solve is Newton(ctx, prob, x0, opts) for the Solver's Problem.
 func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Result, error) {
+	sv.check(x0)
+	return sv.solve(ctx, newResult(sv.prob.N), x0, opts)
+}
+
+// SolveInto is Solve with caller-owned storage: it solves into dst, every
+// field of which it sets, and writes the point into dst.X's backing array
+// when dst.X has the capacity for N values (dst.X is then resliced to
+// length N), else into a new slice. It returns what Solve returns, the
+// error alone (dst is the Result). The iterates, the point and every
+// number are those of Solve for the same call, to the bit; only where the
+// Result lives differs, so that a caller solving many small systems (the
+// points of a sweep) allocates nothing per solve.
+//
+// The point returned in dst.X is overwritten by the next SolveInto into the
+// same storage: a caller that keeps it must copy it, or hand each call
+// storage of its own. x0 may be dst.X itself (its values are then replaced
+// by the point).
+func (sv *Solver) SolveInto(ctx context.Context, dst *Result, x0 []float64, opts *Options) error {
+	sv.check(x0)
+	n := sv.prob.N
+	x := dst.X
+	if cap(x) >= n {
+		x = x[:n]
+	} else {
+		x = make([]float64, n)
+	}
+	*dst = Result{X: x}
+	_, err := sv.solve(ctx, dst, x0, opts)
+	return err
+}
+
+// check panics when the Problem and x0 do not fit.
+func (sv *Solver) check(x0 []float64) {
 	prob := sv.prob
 	n := prob.N
 	if len(x0) != n || len(prob.RowPtr) != n+1 || prob.Residual == nil || prob.ResidualJacobian == nil {
 		panic("solve: Newton: Problem and x0 do not fit (N, RowPtr, x0, Residual, ResidualJacobian)")
 	}
+}
+
+// newResult returns a zero Result with X of length n; for a small n the
+// Result and its X are one allocation.
+func newResult(n int) *Result {
+	if n <= smallResult {
+		b := new(struct {
+			r Result
+			x [smallResult]float64
+		})
+		b.r.X = b.x[:n:n]
+		return &b.r
+	}
+	return &Result{X: make([]float64, n)}
+}
+
+// smallResult is the largest N whose Result and X are allocated together.
+const smallResult = 4
+
+// solve is Solve into res, whose X has length N (res.X may be x0 itself).
+func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Options) (*Result, error) {
+	prob := sv.prob
+	n := prob.N
 	s := sv.prepare(ctx, opts)
 
-	x := slices.Clone(x0)
+	x := res.X
+	copyf(x, x0)
 	s.setBounds(x)
-	res := &Result{X: x}
 
 	// Structure first: a structurally singular system needs a different
 	// specification, not a better guess.
@@ -367,7 +433,7 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 		return s.fail(res, x, outcome{status: EvalFailed, bad: -1, err: err,
 			reason: "the residual cannot be evaluated at the starting guess: " + err.Error()}, "newton")
 	}
-	copy(s.f0, s.cf)
+	copyf(s.f0, s.cf)
 	s.setScales()
 
 	if sv.full == nil {
@@ -377,8 +443,13 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	full := sv.full
 	var reasons []string
 	var best []float64 // the best point of the failed attempts (nil: x)
-	bestNorm := s.normOf(s.f0)
+	// The norm at the guess, for keep; taken when first needed (neither
+	// F(x₀) nor the scales change during the solve).
+	bestNorm, haveNorm := 0.0, false
 	keep := func(y []float64) {
+		if !haveNorm {
+			bestNorm, haveNorm = s.normOf(s.f0), true
+		}
 		if err := s.residual(s.ftry, y); err == nil {
 			if nm := s.normOf(s.ftry); nm < bestNorm {
 				bestNorm = nm
@@ -391,7 +462,7 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	if !s.opt.NoBlocks && len(st.Blocks) > 1 {
 		s.method = "newton+blocks"
 		y := s.y
-		copy(y, x)
+		copyf(y, x)
 		var out outcome
 		for b, blk := range st.Blocks {
 			if sv.blocks[b] == nil {
@@ -420,11 +491,11 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	// 2. Newton on the whole system.
 	s.method = "newton"
 	y := s.y
-	copy(y, x)
-	out := s.run(full, y, s.opt.FTol)
-	if out.ok() {
+	copyf(y, x)
+	if s.runOK(full, y, s.opt.FTol) {
 		return s.done(res, y)
 	}
+	out := s.out
 	if out.status == Canceled {
 		return s.canceled(res, y)
 	}
@@ -435,7 +506,7 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 	// 3. Homotopy from the guess.
 	if !s.opt.NoHomotopy {
 		s.method = "homotopy"
-		copy(y, x)
+		copyf(y, x)
 		out = s.homotopy(full, y)
 		if out.ok() {
 			return s.done(res, y)
@@ -463,68 +534,89 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 
 // setBounds fills lo, hi and typ and moves x strictly inside its bounds.
 func (s *solver) setBounds(x []float64) {
-	p := s.prob
-	for j := range s.n {
-		s.lo[j], s.hi[j] = math.Inf(-1), math.Inf(1)
-		if p.Lower != nil && !math.IsNaN(p.Lower[j]) {
-			s.lo[j] = p.Lower[j]
+	p, n := s.prob, s.n
+	x, lo, hi, typs := x[:n], s.lo[:n], s.hi[:n], s.typ[:n]
+	var lower, upper, typical []float64
+	if p.Lower != nil {
+		lower = p.Lower[:n]
+	}
+	if p.Upper != nil {
+		upper = p.Upper[:n]
+	}
+	if p.Typical != nil {
+		typical = p.Typical[:n]
+	}
+	inf := math.Inf(1)
+	for j, xj := range x {
+		l, h := -inf, inf
+		if lower != nil && !math.IsNaN(lower[j]) {
+			l = lower[j]
 		}
-		if p.Upper != nil && !math.IsNaN(p.Upper[j]) {
-			s.hi[j] = p.Upper[j]
+		if upper != nil && !math.IsNaN(upper[j]) {
+			h = upper[j]
 		}
+		lo[j], hi[j] = l, h
 		typ := 0.0
-		if p.Typical != nil && p.Typical[j] > 0 && !math.IsInf(p.Typical[j], 0) {
-			typ = p.Typical[j]
+		if typical != nil && typical[j] > 0 && !math.IsInf(typical[j], 0) {
+			typ = typical[j]
 		}
-		if typ == 0 && x[j] != 0 && !math.IsInf(x[j], 0) && !math.IsNaN(x[j]) {
-			typ = math.Abs(x[j])
+		if typ == 0 && xj != 0 && !math.IsInf(xj, 0) && !math.IsNaN(xj) {
+			typ = math.Abs(xj)
 		}
 		if typ == 0 {
-			for _, b := range []float64{s.lo[j], s.hi[j]} {
-				if !math.IsInf(b, 0) {
-					typ = max(typ, math.Abs(b))
-				}
+			if !math.IsInf(l, 0) {
+				typ = max(typ, math.Abs(l))
+			}
+			if !math.IsInf(h, 0) {
+				typ = max(typ, math.Abs(h))
 			}
 		}
 		if typ == 0 {
 			typ = 1
 		}
-		s.typ[j] = typ
+		typs[j] = typ
 		// Project the guess strictly inside.
-		if math.IsNaN(x[j]) || math.IsInf(x[j], 0) {
-			x[j] = 0
+		if math.IsNaN(xj) || math.IsInf(xj, 0) {
+			xj = 0
 		}
 		margin := 1e-8 * typ
-		if w := s.hi[j] - s.lo[j]; w < math.Inf(1) {
+		if w := h - l; w < inf {
 			margin = min(margin, 0.01*w)
 		}
-		if x[j] <= s.lo[j] {
-			x[j] = min(s.lo[j]+margin, s.lo[j]+0.5*(s.hi[j]-s.lo[j]))
+		if xj <= l {
+			xj = min(l+margin, l+0.5*(h-l))
 		}
-		if x[j] >= s.hi[j] {
-			x[j] = max(s.hi[j]-margin, s.lo[j]+0.5*(s.hi[j]-s.lo[j]))
+		if xj >= h {
+			xj = max(h-margin, l+0.5*(h-l))
 		}
+		x[j] = xj
 	}
 }
 
 // setScales sets each equation's scale from the Jacobian at the guess
 // (in s.jval): the largest |∂F_i/∂x_j|·typical_j, 1 when that is zero.
 func (s *solver) setScales() {
-	p := s.prob
-	for i := range s.n {
+	p, n := s.prob, s.n
+	rowPtr, scale, typ := p.RowPtr[:n+1], s.scale[:n], s.typ[:n]
+	nnz := rowPtr[n]
+	colIdx, jval := p.ColIdx[:nnz], s.jval[:nnz]
+	k0 := rowPtr[0]
+	for i := range scale {
+		k1 := rowPtr[i+1]
 		m := 0.0
-		cols, vals := p.ColIdx[p.RowPtr[i]:p.RowPtr[i+1]], s.jval[p.RowPtr[i]:p.RowPtr[i+1]]
-		for k, c := range cols {
+		vals := jval[k0:k1]
+		for k, c := range colIdx[k0:k1] {
 			// max(m, v) for v >= 0 or NaN, NaN once either is, as the
 			// built-in gives it, without its call.
-			if v := math.Abs(vals[k]) * s.typ[c]; v > m || v != v {
+			if v := math.Abs(vals[k]) * typ[c]; v > m || v != v {
 				m = v
 			}
 		}
 		if m == 0 || math.IsInf(m, 0) || math.IsNaN(m) {
 			m = 1
 		}
-		s.scale[i] = m
+		scale[i] = m
+		k0 = k1
 	}
 	s.scaled = true
 }
@@ -553,6 +645,10 @@ func (s *solver) newPart(block int, rows, cols []int) *part {
 	for k, p := range pt.src {
 		pt.whole = pt.whole && p == k
 	}
+	pt.ident = len(rows) == s.n && len(cols) == s.n
+	for l := range rows {
+		pt.ident = pt.ident && rows[l] == l && cols[l] == l
+	}
 	return pt
 }
 
@@ -568,9 +664,22 @@ func (s *solver) evalAt(x []float64) error {
 	if err := s.prob.ResidualJacobian(s.cf, s.jval, x); err != nil {
 		return err
 	}
-	copy(s.cx, x)
+	copyf(s.cx, x)
 	s.cOK = true
 	return nil
+}
+
+// copyf is copy(dst, src) for slices of the same length, by a loop for
+// the few values of a small system, where calling memmove costs more.
+func copyf(dst, src []float64) {
+	if len(src) <= 4 {
+		dst = dst[:len(src)]
+		for i, v := range src {
+			dst[i] = v
+		}
+		return
+	}
+	copy(dst, src)
 }
 
 func sameBits(a, b []float64) bool {
@@ -585,7 +694,7 @@ func sameBits(a, b []float64) bool {
 // residual evaluates F (minus (1-t)F(x₀) in the homotopy) into f.
 func (s *solver) residual(f, x []float64) error {
 	if s.cOK && sameBits(x, s.cx) {
-		copy(f, s.cf)
+		copyf(f, s.cf)
 	} else if err := s.prob.Residual(f, x); err != nil {
 		return err
 	}
@@ -599,7 +708,7 @@ func (s *solver) residualJacobian(f, x []float64) error {
 	if err := s.evalAt(x); err != nil {
 		return err
 	}
-	copy(f, s.cf)
+	copyf(f, s.cf)
 	s.shift(f)
 	return nil
 }
@@ -615,12 +724,32 @@ func (s *solver) shift(f []float64) {
 // measure returns the scaled max norm and the merit ½‖F_s‖² over the rows
 // of pt; a non-finite residual gives +Inf.
 func (s *solver) measure(pt *part, f []float64) (norm, phi float64) {
+	if pt.ident {
+		return s.measureAll(f)
+	}
 	for _, r := range pt.rows {
 		v := f[r] / s.scale[r]
 		if math.IsNaN(v) {
 			return math.Inf(1), math.Inf(1)
 		}
 		if a := math.Abs(v); a > norm { // max without its NaN handling: v is a number
+			norm = a
+		}
+		phi += 0.5 * v * v
+	}
+	return norm, phi
+}
+
+// measureAll is measure for a part whose rows are 0..N-1 in order: the
+// same sums in the same order, without the indirection through the rows.
+func (s *solver) measureAll(f []float64) (norm, phi float64) {
+	scale := s.scale[:len(f)]
+	for r, fr := range f {
+		v := fr / scale[r]
+		if v != v {
+			return math.Inf(1), math.Inf(1)
+		}
+		if a := math.Abs(v); a > norm {
 			norm = a
 		}
 		phi += 0.5 * v * v
@@ -642,8 +771,24 @@ func (s *solver) normOf(f []float64) float64 {
 	return m
 }
 
+// runOK is run, with its outcome left in s.out: it reports whether the run
+// converged, without the copies of the outcome that a caller of run makes.
+func (s *solver) runOK(pt *part, x []float64, ftol float64) bool {
+	if s.lean(pt) {
+		s.conv = false
+		return s.runAll(pt, x, ftol)
+	}
+	s.out = s.run(pt, x, ftol)
+	return s.out.status == Converged
+}
+
 // run is damped Newton on one part, from x (updated in place).
 func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
+	s.conv = false
+	if s.lean(pt) {
+		s.runAll(pt, x, ftol)
+		return s.out
+	}
 	small := 0
 	for it := 0; ; it++ {
 		if err := s.ctx.Err(); err != nil {
@@ -747,12 +892,7 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 		}
 		if !ok {
 			if !(amax > 1e-12) {
-				side, b := "lower", s.lo[blocking]
-				if up {
-					side, b = "upper", s.hi[blocking]
-				}
-				return outcome{status: HitBound, bad: blocking,
-					reason: fmt.Sprintf("hit bound: unknown %s sits on its %s bound %s and the Newton step points beyond it", s.varName(blocking), side, s.value(blocking, b))}
+				return s.hitBound(blocking, up)
 			}
 			alpha, ok = s.lineSearch(pt, x, d, amax, phi)
 			dc = d
@@ -792,7 +932,7 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 // where the residual cannot be evaluated cuts by 4. On success s.xtry and
 // s.ftry hold the accepted point.
 func (s *solver) lineSearch(pt *part, x, dir []float64, amax, phi float64) (float64, bool) {
-	copy(s.xtry, x)
+	copyf(s.xtry, x)
 	alpha := amax
 	for first := true; alpha >= 1e-10; first = false {
 		for l, c := range pt.cols {
@@ -869,7 +1009,7 @@ func (s *solver) homotopy(full *part, x []float64) outcome {
 }
 
 func (s *solver) done(res *Result, x []float64) (*Result, error) {
-	copy(res.X, x)
+	copyf(res.X, x)
 	res.Status = Converged
 	res.Method = s.method
 	s.finish(res)
@@ -877,7 +1017,7 @@ func (s *solver) done(res *Result, x []float64) (*Result, error) {
 }
 
 func (s *solver) canceled(res *Result, x []float64) (*Result, error) {
-	copy(res.X, x)
+	copyf(res.X, x)
 	res.Status = Canceled
 	res.Method = s.method
 	s.finish(res)
@@ -888,6 +1028,16 @@ func (s *solver) finish(res *Result) {
 	res.Iterations = s.iters
 	res.StepNorm = s.lastStep
 	res.ResidualNorm, res.ScaledResidualNorm = math.NaN(), math.NaN()
+	if s.conv {
+		// res.X is the point the lean run converged at: F there is in
+		// s.f, and its scaled norm was measured.
+		m := 0.0
+		for _, v := range s.f {
+			m = max(m, math.Abs(v))
+		}
+		res.ResidualNorm, res.ScaledResidualNorm = m, s.convNorm
+		return
+	}
 	if err := s.residual(s.ftry, res.X); err == nil {
 		m := 0.0
 		for _, v := range s.ftry {
@@ -902,7 +1052,7 @@ func (s *solver) finish(res *Result) {
 
 // fail builds the NotConverged error at x, the best point reached.
 func (s *solver) fail(res *Result, x []float64, out outcome, method string) (*Result, error) {
-	copy(res.X, x)
+	copyf(res.X, x)
 	res.Status = out.status
 	res.Method = method
 	if !s.scaled {

@@ -104,10 +104,45 @@ func BenchmarkOperatingColumn4YAML(b *testing.B) {
 // from a start near its solution, as a sweep's corrector does it: the
 // solver's own overhead, not the model's evaluations, dominates.
 func BenchmarkSolverSmallWarm(b *testing.B) {
-	sys, prog := loadModel(b, "syrup.yaml")
+	warmBench(b, filepath.Join("..", "testdata", "models", "syrup.yaml"), false)
+}
+
+// BenchmarkSolverSmallWarmInto is BenchmarkSolverSmallWarm with SolveInto
+// and one Result for all the solves: no allocation.
+func BenchmarkSolverSmallWarmInto(b *testing.B) {
+	warmBench(b, filepath.Join("..", "testdata", "models", "syrup.yaml"), true)
+}
+
+// BenchmarkSolverColumnWarm is the warm Solve of BenchmarkSolverSmallWarm on
+// the 41-stage column template (library/templates/column.yaml, 82
+// unknowns): a bigger system, where the evaluations and the factorisation
+// dominate.
+func BenchmarkSolverColumnWarm(b *testing.B) {
+	warmBench(b, filepath.Join("..", "library", "templates", "column.yaml"), false)
+}
+
+// warmBench solves the model of file from its guesses, then times warm
+// solves as a sweep's corrector makes them (kept pivots, no blocks, no
+// homotopy, at most 8 iterations) from its solution moved by 1e-4 of each
+// value, by Solve or, with into, by SolveInto.
+func warmBench(b *testing.B, file string, into bool) {
+	f, err := model.LoadFile(file)
+	if err != nil {
+		b.Fatal(err)
+	}
+	sys, err := f.Expand(nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	prog, err := jacobian.Compile(sys)
+	if err != nil {
+		b.Fatal(err)
+	}
 	x, p := make([]float64, len(sys.Unknowns)), make([]float64, len(sys.Params))
+	var lower, upper []float64
 	for j, s := range sys.Unknowns {
 		x[j] = s.Value
+		lower, upper = append(lower, s.Min), append(upper, s.Max)
 	}
 	for k, s := range sys.Params {
 		p[k] = s.Value
@@ -120,18 +155,27 @@ func BenchmarkSolverSmallWarm(b *testing.B) {
 		ResidualJacobian: func(f, jval, x []float64) error {
 			return e.ResidualJacobian(f, &jacobian.Sparse{Rows: n, Cols: n, RowPtr: pat.RowPtr, ColIdx: pat.ColIdx, Val: jval}, x, p)
 		},
-		Lower: []float64{0, 0}, Upper: []float64{math.Inf(1), 1}}
+		Lower: lower, Upper: upper}
 	sol := NewSolver(prob)
 	sol.KeepPivots = true
 	res, err := sol.Solve(context.Background(), x, nil)
 	if err != nil {
 		b.Fatal(err)
 	}
-	x0 := []float64{res.X[0] * (1 + 1e-4), res.X[1] * (1 - 1e-4)}
+	x0 := make([]float64, n)
+	for j, v := range res.X {
+		x0[j] = v * (1 + 1e-4*float64(1-2*(j%2)))
+	}
 	opts := &Options{NoBlocks: true, NoHomotopy: true, MaxIter: 8}
+	var dst Result
 	b.ReportAllocs()
 	for b.Loop() {
-		if _, err := sol.Solve(context.Background(), x0, opts); err != nil {
+		if into {
+			err = sol.SolveInto(context.Background(), &dst, x0, opts)
+		} else {
+			_, err = sol.Solve(context.Background(), x0, opts)
+		}
+		if err != nil {
 			b.Fatal(err)
 		}
 	}

@@ -116,3 +116,19 @@ func tridiag41(b *testing.B, opts *Options) (f *LU, a *CSR, x, y, w []float64) {
 	b.ReportAllocs()
 	return f, a, x, y, w
 }
+
+// BenchmarkStep2: RefactorValues then SolveWith of a full 2x2 matrix, the
+// Newton step of a two-unknown model (the syrup blender's sweep).
+func BenchmarkStep2(b *testing.B) {
+	a := fromDense([][]float64{{3, 1}, {-2, 5}}, nil)
+	f, err := Factorize(a, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	x, y, w := []float64{1, 2}, make([]float64, 2), make([]float64, 2)
+	b.ReportAllocs()
+	for b.Loop() {
+		sinkErr = f.RefactorValues(a.Val)
+		f.SolveWith(w, y, x)
+	}
+}

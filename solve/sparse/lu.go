@@ -60,6 +60,10 @@ type LU struct {
 	refactored int       // numeric refactorisations that kept the pivots
 	fresh      int       // factorisations that chose pivots
 
+	// The order-2 path (small.go): the places of the few entries, set
+	// with the pivots when n = 2.
+	two plan2
+
 	// Band mode (band.go): when banded, bd holds the factors and the
 	// sparse symbolic and numeric fields above are unused.
 	banded bool
@@ -148,6 +152,7 @@ func (f *LU) CopyFrom(src *LU) {
 	f.anorm = src.anorm
 	f.refactored, f.fresh = 0, 0
 	f.banded = src.banded
+	f.two = src.two
 	if src.banded {
 		f.bd.copyFrom(&src.bd)
 	} else {
@@ -174,7 +179,13 @@ func (f *LU) refactorValues(val []float64) error {
 		return f.bandFactor(val)
 	}
 	if f.p != nil && len(f.rpos) == len(f.ri) {
-		if err := f.refactor(val); err == nil {
+		var err error
+		if f.n == 2 {
+			err = f.refactor2(val)
+		} else {
+			err = f.refactor(val)
+		}
+		if err == nil {
 			f.refactored++
 			return nil
 		}
@@ -204,6 +215,7 @@ func (f *LU) analyze(a *CSR) {
 	f.rowPtr = slices.Clone(a.RowPtr)
 	f.colIdx = slices.Clone(a.ColIdx[:nnz])
 	f.q, f.pref = order(a, f.how)
+	f.two.ok = false
 	f.p = nil
 	if f.chooseBand(a) {
 		f.cp, f.ri, f.csrPos, f.cval, f.rpos = nil, nil, nil, nil, nil
@@ -267,6 +279,7 @@ func (f *LU) factor() error {
 
 func (f *LU) eliminate() error {
 	f.fresh++
+	f.two.ok = false
 	n := f.n
 	f.pinv = filled(n, -1)
 	f.p = make([]int, n)
@@ -387,6 +400,9 @@ func (f *LU) eliminate() error {
 	f.rpos = f.rpos[:0]
 	for _, r := range f.ri {
 		f.rpos = append(f.rpos, f.pinv[r])
+	}
+	if n == 2 {
+		f.plan2()
 	}
 	return nil
 }
@@ -515,6 +531,20 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 		panic("sparse: solve with a failed factorisation")
 	}
 	if !trans {
+		if n == 2 {
+			f.solve2(dst, b)
+			return
+		}
+		f.solveN(dst, b, w)
+		return
+	}
+	f.solveTrans(dst, b, w)
+}
+
+// solveN is solve without transposition, for any order.
+func (f *LU) solveN(dst, b, w []float64) {
+	n := f.n
+	{
 		// P A Q = L U: w = P b; L z = w; U y = z; x = Q y. The index
 		// slices are cut to n and to each column so that the compiler
 		// can drop most bounds checks.
@@ -547,8 +577,12 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 		for k, c := range q {
 			dst[c] = w[k]
 		}
-		return
 	}
+}
+
+// solveTrans is solve with transposition, for any order.
+func (f *LU) solveTrans(dst, b, w []float64) {
+	n := f.n
 	// Aᵀ = Q Uᵀ Lᵀ P: w = Qᵀ b; Uᵀ z = w; Lᵀ y = z; x = Pᵀ y.
 	for k := range n {
 		w[k] = b[f.q[k]]
