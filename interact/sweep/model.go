@@ -314,6 +314,7 @@ type modelWorker struct {
 	gs     interact.GainSet
 	aopts  interact.Options
 	az     *interact.Analyzer // its results last until the next point
+	res    solve.Result       // of the last solve; its X is the point's own
 }
 
 func (m *modelRun) newWorker() *modelWorker {
@@ -366,10 +367,15 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 		}
 	}
 	opts := w.m.opts.Solver
-	var res *solve.Result
 	var err error
 	iters := 0
 	w.setFrom(from)
+	n, no, ni, np := len(w.xpred), len(w.m.outputs), len(w.m.inputs), len(w.m.interest)
+	// One backing array for the state (solved into it), the record's
+	// numbers and the state's tangent.
+	buf := make([]float64, n+no+2*no*ni+np+w.tangentSize(from))
+	res := &w.res
+	solved := false
 	if x0 := w.predict(p, from); x0 != nil {
 		fast := solve.Options{}
 		if opts != nil {
@@ -380,38 +386,31 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 		if opts != nil && opts.MaxIter > 0 {
 			fast.MaxIter = min(opts.MaxIter, fastIterations)
 		}
-		res, err = w.sol.Solve(ctx, x0, &fast)
-		if res != nil {
-			iters = res.Iterations
-		}
-		if err != nil && ctx.Err() == nil {
-			res = nil
-		}
+		res.X = buf[:n:n]
+		err = w.sol.SolveInto(ctx, res, x0, &fast)
+		iters = res.Iterations
+		solved = err == nil || ctx.Err() != nil
 	}
-	if res == nil {
-		res, err = w.sol.Solve(ctx, from.X, opts)
-		if res != nil {
-			iters += res.Iterations
-		}
+	if !solved {
+		res.X = buf[:n:n]
+		err = w.sol.SolveInto(ctx, res, from.X, opts)
+		iters += res.Iterations
 	}
 	rec.Iterations = iters
 	if err != nil {
 		return State{}, err
 	}
 	x := res.X
+	buf = buf[n:]
 	st := State{X: x}
 	rec.Outside = w.outside(x, p)
 	a, k, err := w.analyse(x, p)
 	if err != nil {
 		return st, err
 	}
-	no, ni := len(w.m.outputs), len(w.m.inputs)
 	if err := w.eval.Outputs(w.y, x, p); err != nil {
 		return st, err
 	}
-	np := len(w.m.interest)
-	// One backing array for the record's numbers and the state's tangent.
-	buf := make([]float64, no+2*no*ni+np+w.tangentSize(from))
 	rec.Outputs, buf = buf[:no:no], buf[no:]
 	rec.K, buf = buf[:no*ni:no*ni], buf[no*ni:]
 	rec.RGA, buf = buf[:no*ni:no*ni], buf[no*ni:]
