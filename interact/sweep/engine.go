@@ -90,6 +90,10 @@ type Options struct {
 // in increasing point order, from the calling goroutine. A failed point is
 // emitted with its reason, never dropped.
 //
+// emit must not keep r after it returns: Run reuses the Record for a later
+// point. The slices in it are never reused and may be kept; copying the
+// struct (*r) keeps the whole record.
+//
 // When ctx is cancelled, Run stops starting points, emits every finished
 // point (the in-order ones first, then any that finished out of order, in
 // increasing order) and returns an error wrapping ctx.Err(). An error from
@@ -131,6 +135,7 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 	pending := map[int]*Record{}
 	next, emitted := 0, 0
 	var emitErr error
+	var pool sync.Pool // of the Records emitted, for the next points
 	put := func(r *Record) {
 		if emitErr != nil {
 			return
@@ -139,6 +144,7 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 			cancel()
 			return
 		}
+		pool.Put(r)
 		emitted++
 		if opts.Progress != nil {
 			opts.Progress(emitted, len(todo))
@@ -162,10 +168,11 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 		// One worker: solve the chains here, with no goroutines to hand the
 		// records over.
 		wk := prob.NewWorker()
+		recs := &recordMaker{prob: prob, pool: &pool}
 		var states []State
 		for _, c := range chains {
 			var ok bool
-			if states, ok = solveChain(ctx, prob, wk, c, opts.Done, states, collect); !ok {
+			if states, ok = solveChain(ctx, prob, wk, recs, c, opts.Done, states, collect); !ok {
 				break
 			}
 		}
@@ -180,10 +187,11 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 			go func() {
 				defer wg.Done()
 				wk := prob.NewWorker()
+				recs := &recordMaker{prob: prob, pool: &pool}
 				var states []State
 				for c := range jobs {
 					var ok bool
-					if states, ok = solveChain(ctx, prob, wk, c, opts.Done, states, func(r *Record) { results <- r }); !ok {
+					if states, ok = solveChain(ctx, prob, wk, recs, c, opts.Done, states, func(r *Record) { results <- r }); !ok {
 						return
 					}
 				}
@@ -226,7 +234,7 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 // yet done to send. It returns false when the context was cancelled. states is
 // scratch space for the chain's converged states, returned for the next
 // chain.
-func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[int]bool, states []State, send func(*Record)) ([]State, bool) {
+func solveChain(ctx context.Context, prob *Problem, wk Worker, recs *recordMaker, c int, done map[int]bool, states []State, send func(*Record)) ([]State, bool) {
 	chain := prob.Plan.Chains[c]
 	p := append([]float64(nil), prob.Nominal...)
 	start := State{X: prob.Start, Tangent: prob.StartTangent, ChainStart: true}
@@ -252,7 +260,7 @@ func solveChain(ctx context.Context, prob *Problem, wk Worker, c int, done map[i
 			for a, ax := range prob.Plan.Axes {
 				p[ax.Param] = vals[a]
 			}
-			rec, states[k] = solvePoint(ctx, prob, wk, p, s.Point, from, !ok)
+			rec, states[k] = solvePoint(ctx, prob, wk, recs, p, s.Point, from, !ok)
 			if ctx.Err() != nil {
 				return states, false // the point may be half done: leave it to a resume
 			}
@@ -285,11 +293,11 @@ func parentStep(chain []Step, k int) int {
 // nominal start when fromStart) and returns its record, normalized, and
 // the converged state (nil X when it did not converge). A continuation that
 // fails is tried once more from the nominal state.
-func solvePoint(ctx context.Context, prob *Problem, wk Worker, p []float64, i int, from State, fromStart bool) (*Record, State) {
-	rec := newRecord(prob, i)
+func solvePoint(ctx context.Context, prob *Problem, wk Worker, recs *recordMaker, p []float64, i int, from State, fromStart bool) (*Record, State) {
+	rec := recs.record(i)
 	st, err := wk.Point(ctx, p, from, rec)
 	if st.X == nil && err != nil && !fromStart && ctx.Err() == nil {
-		rec = newRecord(prob, i)
+		rec = recs.record(i)
 		st, err = wk.Point(ctx, p, State{X: prob.Start, Tangent: prob.StartTangent, ChainStart: true}, rec)
 	}
 	rec.Converged = st.X != nil
@@ -310,25 +318,47 @@ func (prob *Problem) head(c int) *Head {
 	return nil
 }
 
-// recordBox holds a record, the values of up to four axes and the pass
-// flags of up to eight pairings in one allocation.
-type recordBox struct {
-	r    Record
-	vals [4]float64
-	pass [8]bool
+// recordMaker makes the records of one worker's points. The Record structs
+// come from pool, where Run puts them back once emitted (nil: a new one
+// each time); their Values and Pass are cut from blocks shared by many
+// records and never reused, so that emitted slices stay valid.
+type recordMaker struct {
+	prob *Problem
+	pool *sync.Pool
+	vals []float64
+	pass []bool
 }
 
-func newRecord(prob *Problem, i int) *Record {
+// recordBlock is the number of records whose Values or Pass one block
+// holds.
+const recordBlock = 64
+
+// record returns a record of point i with the axis values in display
+// units, no results (Det and Cond NaN), and room for the pass flags of
+// the header's pairings.
+func (m *recordMaker) record(i int) *Record {
 	var r *Record
-	if na := len(prob.Plan.Axes); na <= len(recordBox{}.vals) {
-		b := &recordBox{}
-		r = &b.r
-		r.Values = b.vals[:na:na]
-		r.Pass = b.pass[:0:len(b.pass)]
-	} else {
-		r = &Record{Values: make([]float64, na)}
+	if m.pool != nil {
+		r, _ = m.pool.Get().(*Record)
 	}
-	r.Index, r.Det, r.Cond = i, math.NaN(), math.NaN()
+	if r == nil {
+		r = new(Record)
+	}
+	prob := m.prob
+	na := len(prob.Plan.Axes)
+	if len(m.vals) < na {
+		m.vals = make([]float64, recordBlock*na)
+	}
+	np := 0
+	if prob.Header != nil {
+		np = len(prob.Header.Pairings)
+	}
+	if len(m.pass) < np {
+		m.pass = make([]bool, recordBlock*np)
+	}
+	*r = Record{Index: i, Det: math.NaN(), Cond: math.NaN(),
+		Values: m.vals[:na:na], Pass: m.pass[:0:np]}
+	m.vals, m.pass = m.vals[na:], m.pass[np:]
 	for a, ax := range prob.Plan.Axes {
 		r.Values[a] = ax.Display(prob.Plan.Points[i][a])
 	}

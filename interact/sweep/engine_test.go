@@ -187,7 +187,7 @@ func TestRunStopsOnEmitError(t *testing.T) {
 
 func TestNewRecordDisplayUnits(t *testing.T) {
 	prob := fakeProblem(Design{}, 3, 2)
-	r := newRecord(prob, 5) // a = 1.6 (SI) = 160 %, b = 1.1
+	r := (&recordMaker{prob: prob}).record(5) // a = 1.6 (SI) = 160 %, b = 1.1
 	if math.Abs(r.Values[0]-160) > 1e-9 || r.Values[1] != 1.1 {
 		t.Errorf("display values %v, want [160 1.1]", r.Values)
 	}

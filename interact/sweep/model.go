@@ -180,6 +180,7 @@ func solveHeads(ctx context.Context, prob *Problem, w Worker) error {
 	}
 	p := slices.Clone(prob.Nominal)
 	start := State{X: prob.Start, Tangent: prob.StartTangent, ChainStart: true}
+	recs := &recordMaker{prob: prob} // the heads' records are kept: no pool
 	walk := func(cs []int, from State) {
 		fromStart := from.X == nil
 		if fromStart {
@@ -193,7 +194,7 @@ func solveHeads(ctx context.Context, prob *Problem, w Worker) error {
 			for a, ax := range plan.Axes {
 				p[ax.Param] = plan.Points[i][a]
 			}
-			rec, st := solvePoint(ctx, prob, w, p, i, from, fromStart)
+			rec, st := solvePoint(ctx, prob, w, recs, p, i, from, fromStart)
 			h := &Head{Record: rec}
 			if st.X != nil {
 				h.State = st
@@ -434,7 +435,7 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 		rec.Best = w.pairingName(b.Pairs)
 	}
 	if cap(rec.Pass) >= np {
-		rec.Pass = rec.Pass[:np] // room newRecord made
+		rec.Pass = rec.Pass[:np] // room the engine made
 	} else {
 		rec.Pass = make([]bool, np)
 	}
