@@ -109,8 +109,8 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
-	w.setFrom(State{})
-	startTangent := w.tangent(make([]float64, w.tangentSize(State{})), nominal, State{})
+	nf := w.parseFrom(State{})
+	startTangent := w.tangent(make([]float64, w.tangentSize(&nf)), nominal, &nf)
 	m.pivots = w.sol.Pivots()
 	if w.lu != nil {
 		m.gainsLU = new(sparse.LU)
@@ -301,10 +301,8 @@ type modelWorker struct {
 	fp     *mat.Dense // dF/dp for the inputs, then the axes
 	dxda   []float64  // dx/dp of each axis at the last point analysed, axis by axis
 	xpred  []float64
-	m0, m1 []float64   // the predictor's dx/ds at both ends
-	chk    []float64   // the checks' quantities at the last point
-	fromT  tangentData // the tangent data of the point's start (setFrom)
-	fromOK bool
+	m0, m1 []float64 // the predictor's dx/ds at both ends
+	chk    []float64 // the checks' quantities at the last point
 	dydx   *mat.Dense
 	dydu   *mat.Dense
 	k      *mat.Dense // the gain matrix of the last point, display units
@@ -315,7 +313,6 @@ type modelWorker struct {
 	gs     interact.GainSet
 	aopts  interact.Options
 	az     *interact.Analyzer // its results last until the next point
-	res    solve.Result       // of the last solve; its X is the point's own
 }
 
 func (m *modelRun) newWorker() *modelWorker {
@@ -353,7 +350,9 @@ func (m *modelRun) newWorker() *modelWorker {
 // when that does not converge quickly it solves from the neighbour's state
 // with the solver's full strategy (blocks, homotopy), as from any guess.
 func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
-	w.p = p
+	if len(w.p) != len(p) || len(p) == 0 || &w.p[0] != &p[0] {
+		w.p = p // a chain hands the same slice point after point: no write barrier then
+	}
 	if from.ChainStart {
 		// A new chain: keep nothing from other chains' points; start from
 		// the nominal point's pivots, as every chain does.
@@ -370,14 +369,14 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	opts := w.m.opts.Solver
 	var err error
 	iters := 0
-	w.setFrom(from)
+	f := w.parseFrom(from) // on the stack: no write barriers
 	n, no, ni, np := len(w.xpred), len(w.m.outputs), len(w.m.inputs), len(w.m.interest)
 	// One backing array for the state (solved into it), the record's
 	// numbers and the state's tangent.
-	buf := make([]float64, n+no+2*no*ni+np+w.tangentSize(from))
-	res := &w.res
+	buf := make([]float64, n+no+2*no*ni+np+w.tangentSize(&f))
+	var res solve.Result // on the stack: no write barriers
 	solved := false
-	if x0 := w.predict(p, from); x0 != nil {
+	if x0 := w.predict(p, &f); x0 != nil {
 		fast := solve.Options{}
 		if opts != nil {
 			fast = *opts
@@ -388,13 +387,13 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 			fast.MaxIter = min(opts.MaxIter, fastIterations)
 		}
 		res.X = buf[:n:n]
-		err = w.sol.SolveInto(ctx, res, x0, &fast)
+		err = w.sol.SolveInto(ctx, &res, x0, &fast)
 		iters = res.Iterations
 		solved = err == nil || ctx.Err() != nil
 	}
 	if !solved {
 		res.X = buf[:n:n]
-		err = w.sol.SolveInto(ctx, res, from.X, opts)
+		err = w.sol.SolveInto(ctx, &res, from.X, opts)
 		iters += res.Iterations
 	}
 	rec.Iterations = iters
@@ -416,7 +415,7 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	rec.K, buf = buf[:no*ni:no*ni], buf[no*ni:]
 	rec.RGA, buf = buf[:no*ni:no*ni], buf[no*ni:]
 	rec.NI, buf = buf[:np:np], buf[np:]
-	st.Tangent = w.tangent(buf, p, from)
+	st.Tangent = w.tangent(buf, p, &f)
 	for i := range w.m.sys.Outputs {
 		rec.Outputs[i] = w.m.sys.Outputs[i].Unit.FromSI(w.y[i])
 	}
@@ -499,10 +498,17 @@ type tangentData struct {
 	pBack, xBack, dxBack []float64 // nil without the neighbour's part
 }
 
-// setFrom parses the tangent data of the state a point starts from, once
-// for predict, tangentSize and tangent.
-func (w *modelWorker) setFrom(from State) {
-	w.fromT, w.fromOK = parseTangent(from.Tangent, len(w.m.axes), len(from.X))
+// fromState is the state a point starts from with its tangent data
+// parsed, once for predict, tangentSize and tangent.
+type fromState struct {
+	State
+	t  tangentData
+	ok bool // the state has tangent data
+}
+
+func (w *modelWorker) parseFrom(from State) fromState {
+	t, ok := parseTangent(from.Tangent, len(w.m.axes), len(from.X))
+	return fromState{from, t, ok}
 }
 
 func parseTangent(t []float64, na, n int) (tangentData, bool) {
@@ -525,10 +531,10 @@ func parseTangent(t []float64, na, n int) (tangentData, bool) {
 // lines): then it is the cubic through both states with both tangents
 // (Hermite), which lets Newton converge in one iteration on smooth
 // stretches.
-func (w *modelWorker) predict(p []float64, from State) []float64 {
+func (w *modelWorker) predict(p []float64, from *fromState) []float64 {
 	n := len(from.X)
-	t := w.fromT
-	if !w.fromOK {
+	t := &from.t
+	if !from.ok {
 		return nil
 	}
 	x := w.xpred
@@ -597,10 +603,10 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 
 // tangentSize is the length of the tangent data of a state solved from
 // the neighbour from.
-func (w *modelWorker) tangentSize(from State) int {
+func (w *modelWorker) tangentSize(from *fromState) int {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := na * (n + 1)
-	if w.fromOK && len(from.X) == n {
+	if from.ok && len(from.X) == n {
 		size = 2*size + n
 	}
 	return size
@@ -609,10 +615,10 @@ func (w *modelWorker) tangentSize(from State) int {
 // tangent fills t (of tangentSize(from)) with the tangent data of the state
 // just analysed at p, solved from the neighbour from (see tangentData), and
 // returns it.
-func (w *modelWorker) tangent(t, p []float64, from State) []float64 {
+func (w *modelWorker) tangent(t, p []float64, from *fromState) []float64 {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := len(t)
-	back := w.fromT
+	back := &from.t
 	for a, k := range w.m.axes {
 		t[a] = p[k]
 	}
