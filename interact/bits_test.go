@@ -137,3 +137,92 @@ func TestAnalyzerBits2Golden(t *testing.T) {
 		t.Errorf("the 2x2 analyses changed:\n%s\nwant\n%s", got, want)
 	}
 }
+
+// The fast route of a 2x2 brief analysis (Analyzer.brief2, storing only
+// what is not in place) gives what the general route gives (the package
+// function Analyze, fresh storage), bit for bit and word for word, and the
+// same errors: with the sweep's options and span scaling, for 2x2 gain
+// sets mixed with other shapes, non-finite and singular ones (which move
+// the reused storage around), and with the previous results scribbled on
+// between calls as a careless caller might.
+func TestBrief2SameAsGeneral(t *testing.T) {
+	rnd := rand.New(rand.NewPCG(2026, 3))
+	for _, opts := range []Options{
+		{Brief: true, MaxPairings: -1},
+		{Brief: true, MaxPairings: 0, Scaling: ScaleSpan, Thresholds: Thresholds{CondHigh: 5}},
+	} {
+		z := NewAnalyzer(&opts)
+		var prev *Analysis
+		for trial := 0; trial < 3000; trial++ {
+			var g *GainSet
+			switch rnd.IntN(10) {
+			case 0:
+				g = randomGainSet(rnd, trial) // any shape
+			case 1:
+				k := hardMatrix(rnd, 2, 2, trial)
+				k.Set(rnd.IntN(2), rnd.IntN(2), []float64{math.NaN(), math.Inf(1), 1e-310, 1e300}[rnd.IntN(4)])
+				g = gainSet(k, names4(2, "y"), names4(2, "u"))
+			default:
+				g = gainSet(hardMatrix(rnd, 2, 2, trial), names4(2, "y"), names4(2, "u"))
+			}
+			for i := range g.Outputs {
+				g.Outputs[i].Span = 0.5 + rnd.Float64()
+			}
+			for j := range g.Inputs {
+				g.Inputs[j].Span = 0.5 + rnd.Float64()
+			}
+			if prev != nil && len(prev.Pairings) == 2 {
+				switch rnd.IntN(6) {
+				case 0:
+					prev.Pairings[0], prev.Pairings[1] = prev.Pairings[1], prev.Pairings[0]
+				case 1:
+					prev.RGA, prev.SVD, prev.Dl, prev.OutputIndex = nil, nil, nil, nil
+				case 2:
+					prev.Pairings[0].Pairs[0], prev.Pairings[1].Lambdas[1] = 7, 99
+				case 3:
+					prev.Pairings[1].Pairs, prev.Pairings[0].Reasons = nil, []string{"x"}
+				case 4:
+					prev.Pairings, prev.Method, prev.Notes, prev.Source = prev.Pairings[:1], "x", []string{"x"}, "x"
+				}
+			}
+			want, errW := Analyze(g, &opts)
+			got, errG := z.Analyze(g)
+			what := fmt.Sprintf("%+v, trial %d (%v)", opts, trial, g.K.RawMatrix().Data)
+			if (errW == nil) != (errG == nil) || (errW != nil && errW.Error() != errG.Error()) {
+				t.Fatalf("%s: error %v, general route %v", what, errG, errW)
+			}
+			prev = got
+			if errW != nil {
+				continue
+			}
+			var bg, bw strings.Builder
+			bitsOf(&bg, got)
+			bitsOf(&bw, want)
+			if bg.String() != bw.String() {
+				t.Fatalf("%s:\n%s\ngeneral route:\n%s", what, bg.String(), bw.String())
+			}
+		}
+	}
+}
+
+// in1Range's comparison of bits is the comparison of numbers it replaces.
+func TestIn1RangeBits(t *testing.T) {
+	if small2Bits != math.Float64bits(small2) || big2Bits != math.Float64bits(1/small2) {
+		t.Fatalf("small2Bits %x, big2Bits %x: want %x, %x", small2Bits, big2Bits, math.Float64bits(small2), math.Float64bits(1/small2))
+	}
+	vals := []float64{0, math.Copysign(0, -1), small2, 1 / small2, math.Nextafter(small2, 0), math.Nextafter(1/small2, math.Inf(1)),
+		math.Inf(1), math.Inf(-1), math.NaN(), -math.NaN(), 1, -1, 5e-324, math.MaxFloat64, 0x1p-1022}
+	rnd := rand.New(rand.NewPCG(2026, 4))
+	for range 10000 {
+		vals = append(vals, math.Float64frombits(rnd.Uint64()))
+	}
+	for _, v := range vals {
+		x := math.Abs(v)
+		if want := x == 0 || (x >= small2 && x <= 1/small2); in1Range(v) != want {
+			t.Errorf("in1Range(%v) = %v, want %v", v, !want, want)
+		}
+		if in1Range(v) != in2Range(v) || in2Range4(v, 1, 1, 1) != in2Range(v) {
+			t.Errorf("in1Range(%v) disagrees with in2Range", v)
+		}
+	}
+}
