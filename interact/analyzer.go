@@ -89,7 +89,9 @@ func NewAnalyzer(opts *Options) *Analyzer {
 // Analyze analyses g as the package function Analyze does, into the
 // Analyzer's storage: the result is valid until the next call.
 func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
-	if len(g.Outputs) == 2 && len(g.Inputs) == 2 && g.Kd == nil && z.opts.Brief && z.opts.MaxPairings != 1 && !z.fresh {
+	if len(g.Outputs) != 2 || len(g.Inputs) != 2 {
+		z.shaped2 = false // K may change shape (see view2)
+	} else if g.Kd == nil && z.opts.Brief && z.opts.MaxPairings != 1 && !z.fresh {
 		if a, done, err := z.brief2(g); done {
 			return a, err
 		}

@@ -48,29 +48,24 @@ import (
 // set needs that route (gains not finite or out of range, K
 // ill-conditioned or singular).
 func (z *Analyzer) brief2(g *GainSet) (a *Analysis, done bool, err error) {
-	var k00, k01, k10, k11 float64
+	if r, c := g.K.Dims(); r != 2 || c != 2 {
+		return nil, false, nil // the general route panics
+	}
+	if !z.shaped2 {
+		z.shape2()
+	}
+	k := z.v2.k
 	if z.opts.Scaling == ScaleNone {
 		// Every factor is 1: copy K, as scaledInto does.
-		gr := g.K.RawMatrix()
-		if gr.Rows != 2 || gr.Cols != 2 {
-			return nil, false, nil // the general route panics
-		}
-		k00, k01, k10, k11 = gr.Data[0], gr.Data[1], gr.Data[gr.Stride], gr.Data[gr.Stride+1]
-		kr := z.k.RawMatrix()
-		if kr.Rows != 2 || kr.Cols != 2 {
-			reshape(&z.k, 2, 2)
-			kr = z.k.RawMatrix()
-		}
-		kr.Data[0], kr.Data[1], kr.Data[kr.Stride], kr.Data[kr.Stride+1] = k00, k01, k10, k11
+		*k = elems2(g.K)
 	} else {
 		fy, err := g.scaledInto(z.opts.Scaling, &z.k, &z.kd, z.fy)
 		setSlice(&z.fy, fy)
 		if err != nil {
 			return nil, true, err
 		}
-		kr := z.k.RawMatrix()
-		k00, k01, k10, k11 = kr.Data[0], kr.Data[1], kr.Data[kr.Stride], kr.Data[kr.Stride+1]
 	}
+	k00, k01, k10, k11 := k[0], k[1], k[2], k[3]
 	a = &z.a
 	setString(&a.Source, g.Source)
 	a.Scaling = z.opts.Scaling
@@ -81,7 +76,7 @@ func (z *Analyzer) brief2(g *GainSet) (a *Analysis, done bool, err error) {
 	if len(z.rows) != 2 || len(z.cols) != 2 {
 		z.rows, z.cols = resizeInts(z.rows, 2), resizeInts(z.cols, 2)
 	}
-	z.rows[0], z.rows[1], z.cols[0], z.cols[1] = 0, 1, 0, 1
+	*(*[2]int)(z.rows), *(*[2]int)(z.cols) = [2]int{0, 1}, [2]int{0, 1}
 	setSlice(&a.OutputIndex, z.rows)
 	setSlice(&a.InputIndex, z.cols)
 	if a.K != &z.k {
@@ -119,6 +114,15 @@ func (z *Analyzer) matrix2(k00, k01, k10, k11 float64) (ok bool, err error) {
 	if !in2Range4(k00, k01, k10, k11) {
 		return false, nil
 	}
+	if !z.shaped2 {
+		z.shape2()
+	}
+	v := &z.v2
+	// The SVD, as svdInto gives it, first: its chain of divisions and
+	// square roots is the longest, and the rest can proceed meanwhile.
+	if !svd2Of(v.sv, v.u, v.v, k00, k01, k10, k11) {
+		return false, nil
+	}
 	// inverseDet2's LU and inverse.
 	b, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
 	if !ok {
@@ -129,10 +133,6 @@ func (z *Analyzer) matrix2(k00, k01, k10, k11 float64) (ok bool, err error) {
 	if swap {
 		det = -det
 	}
-	if !z.shaped2 {
-		z.shape2()
-	}
-	v := &z.v2
 	*v.kinv = b
 
 	// Λ = K ∘ (K⁻¹)ᵀ, then zeroRoundoff and the sensitivities.
@@ -164,11 +164,7 @@ func (z *Analyzer) matrix2(k00, k01, k10, k11 float64) (ok bool, err error) {
 		a.Sensitivity = &z.sens
 	}
 
-	// The SVD, as svdInto gives it.
 	r := &z.svd
-	if !svd2Of(v.sv, v.u, v.v, k00, k01, k10, k11) {
-		return false, nil
-	}
 	s0, s1 := v.sv[0], v.sv[1]
 	r.Cond = s0 / s1
 	if a.SVD != r {
@@ -228,12 +224,22 @@ func det2(a00, a01, a10, a11 float64) float64 {
 	return det
 }
 
-// view2 is the storage matrix2 and pairings2 fill, as arrays: K⁻¹, the
-// RGA, the sensitivities, U and V (2x2, row by row) and the singular values
-// and scalings. shape2 sets it; it is valid while z.shaped2 holds.
+// view2 is the storage brief2, matrix2 and pairings2 fill, as arrays: K,
+// K⁻¹, the RGA, the sensitivities, U and V (2x2, row by row) and the
+// singular values and scalings. shape2 sets it; it is valid while
+// z.shaped2 holds, which Analyze clears for a gain set that is not 2x2
+// (the only kind that reshapes K) and before the general path reshapes the
+// others.
 type view2 struct {
-	kinv, rga, sens, u, v *[4]float64
-	sv, dl, dr            *[2]float64
+	k, kinv, rga, sens, u, v *[4]float64
+	sv, dl, dr               *[2]float64
+}
+
+// elems2 returns the elements of the 2x2 k, row by row.
+func elems2(k *mat.Dense) [4]float64 {
+	r0, r1 := k.RawRowView(0), k.RawRowView(1)
+	_, _ = r0[1], r1[1]
+	return [4]float64{r0[0], r0[1], r1[0], r1[1]}
 }
 
 // shape2 makes the matrices and slices matrix2 fills 2x2 (2 long), points
@@ -245,7 +251,7 @@ func (z *Analyzer) shape2() {
 		r.U, r.V = new(mat.Dense), new(mat.Dense)
 	}
 	v := &z.v2
-	v.kinv, v.rga, v.sens, v.u, v.v = dense4(&z.kinv), dense4(&z.rga), dense4(&z.sens), dense4(r.U), dense4(r.V)
+	v.k, v.kinv, v.rga, v.sens, v.u, v.v = dense4(&z.k), dense4(&z.kinv), dense4(&z.rga), dense4(&z.sens), dense4(r.U), dense4(r.V)
 	r.Values = resizeFloats(r.Values, 2)
 	z.dl, z.dr = resizeFloats(z.dl, 2), resizeFloats(z.dr, 2)
 	v.sv, v.dl, v.dr = (*[2]float64)(r.Values), (*[2]float64)(z.dl), (*[2]float64)(z.dr)
