@@ -111,7 +111,7 @@ func (z *Analyzer) brief2(g *GainSet) (a *Analysis, done bool, err error) {
 // needs the general path (see above).
 func (z *Analyzer) matrix2(k00, k01, k10, k11 float64) (ok bool, err error) {
 	a := &z.a
-	if !in2Range4(k00, k01, k10, k11) {
+	if !(in1Range(k00) && in1Range(k01) && in1Range(k10) && in1Range(k11)) { // in2Range4, inlined
 		return false, nil
 	}
 	if !z.shaped2 {
@@ -339,11 +339,14 @@ func (z *Analyzer) pairings2(k00, k01, k10, k11 float64) {
 	sumAbs += math.Abs(l01)
 	sumAbs += math.Abs(l10)
 	sumAbs += math.Abs(l11)
-	if len(z.slots) < 2 || len(z.res) != 2 || len(z.slots[0].pairs) != 2 || len(z.slots[0].lambdas) != 2 ||
-		len(z.slots[1].pairs) != 2 || len(z.slots[1].lambdas) != 2 {
+	if len(z.slots) < 2 || len(z.res) != 2 {
 		z.grow2()
 	}
-	s0, s1 := &z.slots[0], &z.slots[1]
+	slots := (*[2]resultSlot)(z.slots)
+	s0, s1 := &slots[0], &slots[1]
+	if len(s0.pairs) != 2 || len(s0.lambdas) != 2 || len(s1.pairs) != 2 || len(s1.lambdas) != 2 {
+		z.grow2() // keeps the slots where they are
+	}
 	*(*[2]int)(s0.pairs) = [2]int{0, 1}
 	*(*[2]int)(s1.pairs) = [2]int{1, 0}
 	*(*[2]float64)(s0.lambdas) = [2]float64{l00, l11}
