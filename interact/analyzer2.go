@@ -111,7 +111,7 @@ func (z *Analyzer) brief2(g *GainSet) (a *Analysis, done bool, err error) {
 // needs the general path (see above).
 func (z *Analyzer) matrix2(k00, k01, k10, k11 float64) (ok bool, err error) {
 	a := &z.a
-	if !(in1Range(k00) && in1Range(k01) && in1Range(k10) && in1Range(k11)) { // in2Range4, inlined
+	if !(in1Range(k00) && in1Range(k01) && in1Range(k10) && in1Range(k11)) { // in2Range, inlined
 		return false, nil
 	}
 	if !z.shaped2 {
@@ -304,11 +304,6 @@ func maxPos(x, y float64) float64 {
 		return x
 	}
 	return y
-}
-
-// in2Range4 is in2Range of four numbers.
-func in2Range4(a, b, c, d float64) bool {
-	return in1Range(a) && in1Range(b) && in1Range(c) && in1Range(d)
 }
 
 // in1Range reports whether v is 0 or small2 <= |v| <= 1/small2 (false for
