@@ -64,6 +64,7 @@ type Analyzer struct {
 	slots   []resultSlot
 	fresh   bool // the Analysis will be the caller's: copy the signal lists
 	shaped2 bool // the storage matrix2 fills is 2x2 (see shape2)
+	v2      view2
 }
 
 // resultSlot is the storage of the k-th detailed pairing.
@@ -88,6 +89,13 @@ func NewAnalyzer(opts *Options) *Analyzer {
 // Analyze analyses g as the package function Analyze does, into the
 // Analyzer's storage: the result is valid until the next call.
 func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
+	if len(g.Outputs) != 2 || len(g.Inputs) != 2 {
+		z.shaped2 = false // K may change shape (see view2)
+	} else if g.Kd == nil && z.opts.Brief && z.opts.MaxPairings != 1 && !z.fresh {
+		if a, done, err := z.brief2(g); done {
+			return a, err
+		}
+	}
 	opts := &z.opts
 	if len(g.Outputs) == 0 || len(g.Inputs) == 0 {
 		return nil, fmt.Errorf("interact: the gain set from %s has %d outputs and %d inputs: need at least one of each", sourceName(g), len(g.Outputs), len(g.Inputs))
@@ -161,13 +169,15 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 		maxOut = 10
 	}
 	if n == 2 {
-		ok, err := z.matrix2()
+		kr := z.k.RawMatrix()
+		k00, k01, k10, k11 := kr.Data[0], kr.Data[1], kr.Data[kr.Stride], kr.Data[kr.Stride+1]
+		ok, err := z.matrix2(k00, k01, k10, k11)
 		if err != nil {
 			return nil, err
 		}
 		if ok {
 			if opts.Brief && (maxOut < 0 || maxOut >= 2) {
-				z.pairings2()
+				z.pairings2(k00, k01, k10, k11)
 				return a, nil
 			}
 			return z.rank(a, n, maxOut)

@@ -3,6 +3,7 @@ package interact
 import (
 	"cmp"
 	"math"
+	"unsafe"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -34,15 +35,92 @@ import (
 //     out of in2Range's range take the general path as before, so the
 //     singularity decisions and their messages are the general path's.
 
+// brief2 is Analyze for what an envelope sweep asks at every point: a
+// square 2x2 gain set without disturbances, analysed briefly with every
+// pairing (Options.Brief, MaxPairings not 1), by an Analyzer whose results
+// are its own (not the package function Analyze). It computes what the
+// general route computes, with the same operations (matrix2, pairings2),
+// but stores a pointer or slice in the results only where it is not
+// already there: analysing one point after another, the Analyzer finds
+// them in place, and a store costs more than the comparison, with a
+// write barrier while the garbage collector runs. done is false, and
+// nothing is set that the general route does not set again, when the gain
+// set needs that route (gains not finite or out of range, K
+// ill-conditioned or singular).
+func (z *Analyzer) brief2(g *GainSet) (a *Analysis, done bool, err error) {
+	if r, c := g.K.Dims(); r != 2 || c != 2 {
+		return nil, false, nil // the general route panics
+	}
+	if !z.shaped2 {
+		z.shape2()
+	}
+	k := z.v2.k
+	if z.opts.Scaling == ScaleNone {
+		// Every factor is 1: copy K, as scaledInto does.
+		*k = elems2(g.K)
+	} else {
+		fy, err := g.scaledInto(z.opts.Scaling, &z.k, &z.kd, z.fy)
+		setSlice(&z.fy, fy)
+		if err != nil {
+			return nil, true, err
+		}
+	}
+	k00, k01, k10, k11 := k[0], k[1], k[2], k[3]
+	a = &z.a
+	setString(&a.Source, g.Source)
+	a.Scaling = z.opts.Scaling
+	setString(&a.Caution, Caution)
+	setSlice(&a.Outputs, g.Outputs)
+	setSlice(&a.Inputs, g.Inputs)
+	setSlice(&a.Disturbances, g.Disturbances)
+	if len(z.rows) != 2 || len(z.cols) != 2 {
+		z.rows, z.cols = resizeInts(z.rows, 2), resizeInts(z.cols, 2)
+	}
+	*(*[2]int)(z.rows), *(*[2]int)(z.cols) = [2]int{0, 1}, [2]int{0, 1}
+	setSlice(&a.OutputIndex, z.rows)
+	setSlice(&a.InputIndex, z.cols)
+	if a.K != &z.k {
+		a.K = &z.k
+	}
+	if a.Kd != nil {
+		a.Kd = nil
+	}
+	if a.Selection != nil {
+		a.Selection = nil
+	}
+	if a.Method != "" {
+		a.Method = ""
+	}
+	if a.Notes != nil {
+		a.Notes = nil
+	}
+	ok, err := z.matrix2(k00, k01, k10, k11)
+	if !ok {
+		return nil, false, nil
+	}
+	if err != nil {
+		return nil, true, err
+	}
+	z.pairings2(k00, k01, k10, k11)
+	return a, true, nil
+}
+
 // matrix2 fills the analysis's RGA, Sensitivity, Det, SVD, MinCond, Dl, Dr,
-// notes and z.kinv for the 2x2 K in z.k. It reports false, having set
-// nothing the general path does not overwrite, when K needs the general
-// path (see above).
-func (z *Analyzer) matrix2() (ok bool, err error) {
+// notes and z.kinv for the 2x2 K = [k00 k01; k10 k11] in z.k. It reports
+// false, having set nothing the general path does not overwrite, when K
+// needs the general path (see above).
+func (z *Analyzer) matrix2(k00, k01, k10, k11 float64) (ok bool, err error) {
 	a := &z.a
-	kr := z.k.RawMatrix()
-	k00, k01, k10, k11 := kr.Data[0], kr.Data[1], kr.Data[kr.Stride], kr.Data[kr.Stride+1]
-	if !in2Range4(k00, k01, k10, k11) {
+	if !(in1Range(k00) && in1Range(k01) && in1Range(k10) && in1Range(k11)) { // in2Range, inlined
+		return false, nil
+	}
+	if !z.shaped2 {
+		z.shape2()
+	}
+	v := &z.v2
+	// The SVD, as svdInto gives it, first: its chain of divisions and
+	// square roots is the longest, and the rest can proceed meanwhile.
+	if !svd2Of(v.sv, v.u, v.v, k00, k01, k10, k11) {
 		return false, nil
 	}
 	// inverseDet2's LU and inverse.
@@ -55,11 +133,7 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 	if swap {
 		det = -det
 	}
-	if !z.shaped2 {
-		z.shape2()
-	}
-	ir := z.kinv.RawMatrix()
-	ir.Data[0], ir.Data[1], ir.Data[ir.Stride], ir.Data[ir.Stride+1] = b00, b01, b10, b11
+	*v.kinv = b
 
 	// Λ = K ∘ (K⁻¹)ᵀ, then zeroRoundoff and the sensitivities.
 	l00, l01, l10, l11 := float64(k00*b00), float64(k01*b10), float64(k10*b01), float64(k11*b11)
@@ -80,21 +154,23 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 			l11 = 0
 		}
 	}
-	rr := z.rga.RawMatrix()
-	rr.Data[0], rr.Data[1], rr.Data[rr.Stride], rr.Data[rr.Stride+1] = l00, l01, l10, l11
-	sr := z.sens.RawMatrix()
-	sr.Data[0], sr.Data[1], sr.Data[sr.Stride], sr.Data[sr.Stride+1] = 1/l00, 1/l01, 1/l10, 1/l11
-	a.RGA, a.Sensitivity, a.Det = &z.rga, &z.sens, det
-
-	// The SVD, as svdInto gives it.
-	r := &z.svd
-	ud, vd := r.U.RawMatrix(), r.V.RawMatrix()
-	if !svd2Of(r.Values, ud.Data[0:2], ud.Data[ud.Stride:ud.Stride+2], vd.Data[0:2], vd.Data[vd.Stride:vd.Stride+2], k00, k01, k10, k11) {
-		return false, nil
+	*v.rga = [4]float64{l00, l01, l10, l11}
+	*v.sens = [4]float64{1 / l00, 1 / l01, 1 / l10, 1 / l11}
+	a.Det = det
+	if a.RGA != &z.rga {
+		a.RGA = &z.rga
 	}
-	r.Cond = r.Values[0] / r.Values[1]
-	a.SVD = r
-	if r.Values[1] == 0 || r.Cond > 1/0x1p-52 { // as minCondInto; not reached below cond 1e10
+	if a.Sensitivity != &z.sens {
+		a.Sensitivity = &z.sens
+	}
+
+	r := &z.svd
+	s0, s1 := v.sv[0], v.sv[1]
+	r.Cond = s0 / s1
+	if a.SVD != r {
+		a.SVD = r
+	}
+	if s1 == 0 || r.Cond > 1/0x1p-52 { // as minCondInto; not reached below cond 1e10
 		return true, &SingularError{What: "K", Cond: r.Cond}
 	}
 
@@ -110,15 +186,19 @@ func (z *Analyzer) matrix2() (ok bool, err error) {
 		s := math.Sqrt(ak * ck / (bk * dk))
 		q := ak / (s * dk)
 		gq, gs := math.Sqrt(q), math.Sqrt(s)
-		z.dl[0], z.dl[1] = 1/gq, q/gq
-		z.dr[0], z.dr[1] = 1/gs, s/gs
+		*v.dl = [2]float64{1 / gq, q / gq}
+		*v.dr = [2]float64{1 / gs, s / gs}
 	} else if gamma, ok = minCond2(&z.k, z.dl, z.dr); !ok {
 		if gamma, err = minCondInto(&z.k, r, &z.dl, &z.dr, &z.mw); err != nil {
 			return true, err
 		}
 	}
-	a.MinCond, a.Dl, a.Dr = gamma, z.dl, z.dr
-	z.noteCondition()
+	a.MinCond = gamma
+	setSlice(&a.Dl, z.dl)
+	setSlice(&a.Dr, z.dr)
+	if gamma > z.th.CondHigh {
+		z.noteCondition()
+	}
 	return true, nil
 }
 
@@ -144,19 +224,49 @@ func det2(a00, a01, a10, a11 float64) float64 {
 	return det
 }
 
-// shape2 makes the matrices and slices matrix2 fills 2x2 (2 long), and
-// records it in z.shaped2, which the general path clears.
+// view2 is the storage brief2, matrix2 and pairings2 fill, as arrays: K,
+// K⁻¹, the RGA, the sensitivities, U and V (2x2, row by row) and the
+// singular values and scalings. shape2 sets it; it is valid while
+// z.shaped2 holds, which Analyze clears for a gain set that is not 2x2
+// (the only kind that reshapes K) and before the general path reshapes the
+// others.
+type view2 struct {
+	k, kinv, rga, sens, u, v *[4]float64
+	sv, dl, dr               *[2]float64
+}
+
+// elems2 returns the elements of the 2x2 k, row by row.
+func elems2(k *mat.Dense) [4]float64 {
+	r0, r1 := k.RawRowView(0), k.RawRowView(1)
+	_, _ = r0[1], r1[1]
+	return [4]float64{r0[0], r0[1], r1[0], r1[1]}
+}
+
+// shape2 makes the matrices and slices matrix2 fills 2x2 (2 long), points
+// z.v2 at them, and records it in z.shaped2, which the general path
+// clears.
 func (z *Analyzer) shape2() {
 	r := &z.svd
 	if r.U == nil {
 		r.U, r.V = new(mat.Dense), new(mat.Dense)
 	}
-	for _, d := range [...]*mat.Dense{&z.kinv, &z.rga, &z.sens, r.U, r.V} {
-		reshape(d, 2, 2)
-	}
+	v := &z.v2
+	v.k, v.kinv, v.rga, v.sens, v.u, v.v = dense4(&z.k), dense4(&z.kinv), dense4(&z.rga), dense4(&z.sens), dense4(r.U), dense4(r.V)
 	r.Values = resizeFloats(r.Values, 2)
 	z.dl, z.dr = resizeFloats(z.dl, 2), resizeFloats(z.dr, 2)
+	v.sv, v.dl, v.dr = (*[2]float64)(r.Values), (*[2]float64)(z.dl), (*[2]float64)(z.dr)
 	z.shaped2 = true
+}
+
+// dense4 makes d a 2x2 matrix with rows of stride 2, reusing its storage,
+// and returns its elements.
+func dense4(d *mat.Dense) *[4]float64 {
+	reshape(d, 2, 2)
+	if d.RawMatrix().Stride != 2 { // a view: not the Analyzer's own matrices
+		d.Reset()
+		d.ReuseAs(2, 2)
+	}
+	return (*[4]float64)(d.RawMatrix().Data)
 }
 
 // minCond2From is the minimised condition number of a non-singular 2x2
@@ -196,75 +306,145 @@ func maxPos(x, y float64) float64 {
 	return y
 }
 
-// in2Range4 is in2Range of four numbers.
-func in2Range4(a, b, c, d float64) bool {
-	return in1Range(a) && in1Range(b) && in1Range(c) && in1Range(d)
+// in1Range reports whether v is 0 or small2 <= |v| <= 1/small2 (false for
+// NaN), comparing the bits of |v|: for numbers that are not negative, the
+// order of the bits is the order of the numbers, with ±Inf and NaN above
+// every finite one.
+func in1Range(v float64) bool {
+	const lo, hi = small2Bits << 1, big2Bits << 1
+	b := math.Float64bits(v) << 1  // |v| without its sign
+	return b == 0 || b-lo <= hi-lo // b < lo wraps around to above hi-lo
 }
 
-func in1Range(v float64) bool {
-	x := math.Abs(v)
-	return x == 0 || (x >= small2 && x <= 1/small2) // false for NaN
-}
+// small2Bits and big2Bits are the bits of small2 = 2⁻³⁰⁰ and 1/small2 =
+// 2³⁰⁰: biased exponents 1023 ∓ 300, zero mantissas.
+const small2Bits, big2Bits = uint64(1023-300) << 52, uint64(1023+300) << 52
 
 // pairings2 screens and ranks both pairings of a 2x2 for a brief analysis
 // that wants them all, with the numbers, verdicts and order that
 // screener.detail and detailAll give (the same operations in the same
-// order), without the general bookkeeping.
-func (z *Analyzer) pairings2() {
+// order), without the general bookkeeping. Slot 0 holds the pairing
+// (0, 1) and slot 1 the pairing (1, 0); the results point to them in
+// ranked order, and pointers already in place are not stored again.
+func (z *Analyzer) pairings2(k00, k01, k10, k11 float64) {
 	a := &z.a
-	rr, kr := z.rga.RawMatrix(), z.k.RawMatrix()
-	l00, l01, l10, l11 := rr.Data[0], rr.Data[1], rr.Data[rr.Stride], rr.Data[rr.Stride+1]
-	k00, k01, k10, k11 := kr.Data[0], kr.Data[1], kr.Data[kr.Stride], kr.Data[kr.Stride+1]
+	rga := z.v2.rga
+	l00, l01, l10, l11 := rga[0], rga[1], rga[2], rga[3]
 	sumAbs := 0 + math.Abs(l00) // as screener.init sums, from +0
 	sumAbs += math.Abs(l01)
 	sumAbs += math.Abs(l10)
 	sumAbs += math.Abs(l11)
-	nd := 0
+	if len(z.slots) < 2 || len(z.res) != 2 {
+		z.grow2()
+	}
+	slots := (*[2]resultSlot)(z.slots)
+	s0, s1 := &slots[0], &slots[1]
+	if len(s0.pairs) != 2 || len(s0.lambdas) != 2 || len(s1.pairs) != 2 || len(s1.lambdas) != 2 {
+		z.grow2() // keeps the slots where they are
+	}
+	*(*[2]int)(s0.pairs) = [2]int{0, 1}
+	*(*[2]int)(s1.pairs) = [2]int{1, 0}
+	*(*[2]float64)(s0.lambdas) = [2]float64{l00, l11}
+	*(*[2]float64)(s1.lambdas) = [2]float64{l01, l10}
+	rdg0, rdg1 := 0, 0 // relative disturbance gains above RDGHigh
 	if a.Kd != nil {
-		_, nd = a.Kd.Dims()
+		_, nd := a.Kd.Dims()
 		mulInto(&z.kinvD, &z.kinv, a.Kd)
+		rdg0, rdg1 = z.rdg2(s0, 0, 1, nd), z.rdg2(s1, 1, 0, nd)
 	}
-	for len(z.slots) < 2 {
-		z.slots = append(z.slots, resultSlot{})
-	}
-	res := z.res[:0]
-	if cap(res) >= 2 {
-		res = res[:2]
-	} else {
-		res = append(res, PairingResult{}, PairingResult{})
-	}
-	z.pairing2(&res[0], &z.slots[0], 0, l00, l11, k00, k11, sumAbs, a.Det, nd)
-	z.pairing2(&res[1], &z.slots[1], 1, l01, l10, k01, k10, sumAbs, -a.Det, nd)
+	noted := len(a.Notes) > 0
+	p0 := judge2(&z.th, l00, l11, k00, k11, sumAbs, a.Det, rdg0, noted)
+	p1 := judge2(&z.th, l01, l10, k01, k10, sumAbs, -a.Det, rdg1, noted)
 	a.Rejected = 0
-	if res[0].Verdict == Rejected {
+	if p0.verdict == Rejected {
 		a.Rejected++
 	}
-	if res[1].Verdict == Rejected {
+	if p1.verdict == Rejected {
 		a.Rejected++
 	}
 	// compareResults: rejected last, then by score, then by pairing, and
 	// (0, 1) comes before (1, 0).
-	r0, r1 := &res[0], &res[1]
-	if rej0, rej1 := r0.Verdict == Rejected, r1.Verdict == Rejected; rej0 != rej1 {
-		if rej0 {
-			*r0, *r1 = *r1, *r0
-		}
-	} else if cmp.Compare(r0.Score, r1.Score) > 0 {
-		*r0, *r1 = *r1, *r0
+	swap := false
+	if rej0, rej1 := p0.verdict == Rejected, p1.verdict == Rejected; rej0 != rej1 {
+		swap = rej0
+	} else {
+		swap = cmp.Compare(p0.score, p1.score) > 0
 	}
+	if swap {
+		s0, s1 = s1, s0
+		p0, p1 = p1, p0
+	}
+	withRDG := a.Kd != nil
+	res := (*[2]PairingResult)(z.res)
+	store2(&res[0], s0, &p0, withRDG)
+	store2(&res[1], s1, &p1, withRDG)
 	a.Screened = 2
-	z.res = res
-	a.Pairings = res
+	if !sameHeader(a.Pairings, z.res) {
+		a.Pairings = z.res
+	}
 }
 
-// pairing2 is screener.detail (brief) of the 2x2 pairing j0 = t, j1 = 1-t
-// with paired relative gains la, lb and gains ka, kb; sdet is det K with
-// the pairing's sign.
-func (z *Analyzer) pairing2(r *PairingResult, slot *resultSlot, t int, la, lb, ka, kb, sumAbs, sdet float64, nd int) {
-	th := &z.th
-	slot.pairs = append(slot.pairs[:0], t, 1-t)
-	slot.lambdas = append(slot.lambdas[:0], la, lb)
-	nRejects, nCautions := 0, 0
+// grow2 readies the storage pairings2 fills: two slots with pairs and
+// lambdas 2 long, and two results.
+func (z *Analyzer) grow2() {
+	for len(z.slots) < 2 {
+		z.slots = append(z.slots, resultSlot{})
+	}
+	if len(z.res) != 2 {
+		if cap(z.res) >= 2 {
+			z.res = z.res[:2]
+		} else {
+			z.res = append(z.res[:0], PairingResult{}, PairingResult{})
+		}
+	}
+	for t := range 2 {
+		s := &z.slots[t]
+		s.pairs, s.lambdas = resizeInts(s.pairs, 2), resizeFloats(s.lambdas, 2)
+	}
+}
+
+// result2 is the part of a PairingResult that judge2 computes.
+type result2 struct {
+	ni, rgaNum, score float64
+	verdict           Verdict
+}
+
+// store2 makes *r the brief result p with its slices in slot (and its RDG
+// when withRDG), as screener.detail stores it, storing only the pointers
+// not already there.
+func store2(r *PairingResult, slot *resultSlot, p *result2, withRDG bool) {
+	if !sameHeader(r.Pairs, slot.pairs) {
+		r.Pairs = slot.pairs
+	}
+	if !sameHeader(r.Lambdas, slot.lambdas) {
+		r.Lambdas = slot.lambdas
+	}
+	if r.Label != "" {
+		r.Label = ""
+	}
+	if r.Reasons != nil {
+		r.Reasons = nil
+	}
+	if r.Integrity != nil {
+		r.Integrity = nil
+	}
+	var rdg *mat.Dense
+	if withRDG {
+		rdg = &slot.rdg
+	}
+	if r.RDG != rdg {
+		r.RDG = rdg
+	}
+	r.Niederlinski, r.RGANumber, r.Verdict, r.Score = p.ni, p.rgaNum, p.verdict, p.score
+}
+
+// judge2 is screener.detail (brief) of a 2x2 pairing with paired relative
+// gains la, lb and gains ka, kb, the same operations in the same order:
+// sumAbs is Σ|λ_ij|, sdet is det K with the pairing's sign, rdgHigh counts
+// its relative disturbance gains above RDGHigh and noted says whether the
+// analysis has notes.
+func judge2(th *Thresholds, la, lb, ka, kb, sumAbs, sdet float64, rdgHigh int, noted bool) (p result2) {
+	nRejects, nCautions := 0, rdgHigh
 	switch {
 	case ka == 0 || la <= 0:
 		nRejects++
@@ -284,23 +464,41 @@ func (z *Analyzer) pairing2(r *PairingResult, slot *resultSlot, t int, la, lb, k
 	if prod := ka * kb; prod != 0 {
 		ni = sdet / prod
 	}
-	// Field by field: storing a whole struct with pointers costs more.
-	r.Pairs, r.Lambdas, r.Label, r.Reasons, r.Integrity, r.RDG = slot.pairs, slot.lambdas, "", nil, nil, nil
-	r.Niederlinski, r.RGANumber = ni, rgaNum
-	if nd > 0 {
-		nCautions += z.rdg2(slot, t, 1-t, nd)
-		r.RDG = &slot.rdg
-	}
-	r.Score = rgaNum + 2*float64(nCautions)
+	p.ni, p.rgaNum = ni, rgaNum
+	p.score = rgaNum + 2*float64(nCautions)
 	switch {
 	case nRejects > 0:
-		r.Verdict = Rejected
-	case nCautions > 0 || len(z.a.Notes) > 0:
-		r.Verdict = Cautioned
+		p.verdict = Rejected
+	case nCautions > 0 || noted:
+		p.verdict = Cautioned
 	case allGood:
-		r.Verdict = Recommended
+		p.verdict = Recommended
 	default:
-		r.Verdict = Acceptable
+		p.verdict = Acceptable
+	}
+	return p
+}
+
+// sameHeader reports whether x and y are the same slice: the same first
+// element (or both nil), length and capacity. Storing a slice that is
+// already in place is skipped this way, sparing the pointer store and its
+// write barrier.
+func sameHeader[T any](x, y []T) bool {
+	return unsafe.SliceData(x) == unsafe.SliceData(y) && len(x) == len(y) && cap(x) == cap(y)
+}
+
+// setString stores s in *dst unless *dst is s already (the same bytes in
+// the same place).
+func setString(dst *string, s string) {
+	if unsafe.StringData(*dst) != unsafe.StringData(s) || len(*dst) != len(s) {
+		*dst = s
+	}
+}
+
+// setSlice stores s in *dst unless it is there already (see sameHeader).
+func setSlice[T any](dst *[]T, s []T) {
+	if !sameHeader(*dst, s) {
+		*dst = s
 	}
 }
 

@@ -1,8 +1,11 @@
 package interact
 
 import (
+	"math"
 	"math/rand/v2"
 	"testing"
+
+	"gonum.org/v1/gonum/mat"
 )
 
 var analysisSink *Analysis
@@ -74,3 +77,41 @@ func BenchmarkAnalyzerBrief4(b *testing.B)   { analyzerBench(b, 4, 0, briefOpts)
 func BenchmarkAnalyzerBrief8(b *testing.B)   { analyzerBench(b, 8, 0, briefOpts) }
 func BenchmarkAnalyzerBrief2Kd(b *testing.B) { analyzerBench(b, 2, 2, briefOpts) }
 func BenchmarkAnalyzerBrief4Kd(b *testing.B) { analyzerBench(b, 4, 2, briefOpts) }
+
+var garbageSink []byte
+
+// BenchmarkAnalyzerBrief2Sweep analyses 2x2 gain sets as an envelope sweep
+// does (interact/sweep's worker): the sweep's options, the same signal
+// lists with a K that changes smoothly from point to point, and between calls the
+// garbage the rest of a sweep point makes, kept alive for a while, so that
+// the collector runs, with its write barrier on, part of the time, as it
+// does in a sweep.
+func BenchmarkAnalyzerBrief2Sweep(b *testing.B) {
+	// Neighbouring points of a sweep: K moves smoothly, by up to 20 %.
+	k0 := benchGains(2, 0).K
+	ks := make([]*mat.Dense, 256)
+	for t := range ks {
+		k := mat.NewDense(2, 2, nil)
+		for i := 0; i < 2; i++ {
+			for j := 0; j < 2; j++ {
+				k.Set(i, j, k0.At(i, j)*(1+0.2*math.Sin(2*math.Pi*float64(t)/float64(len(ks))+float64(2*i+j))))
+			}
+		}
+		ks[t] = k
+	}
+	g := gainSet(ks[0], names4(2, "y"), names4(2, "u"))
+	g.Source = "model"
+	z := NewAnalyzer(&Options{Brief: true, MaxPairings: -1})
+	live := make([][]byte, 1<<14)
+	b.ReportAllocs()
+	for i := 0; b.Loop(); i++ {
+		g.K = ks[i%len(ks)]
+		a, err := z.Analyze(g)
+		if err != nil {
+			b.Fatal(err)
+		}
+		analysisSink = a
+		live[i%len(live)] = make([]byte, 64)
+	}
+	garbageSink = live[0]
+}

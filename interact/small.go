@@ -152,9 +152,10 @@ func lu2Inverse(a00, a01, a10, a11 float64) (b [4]float64, p0, u11 float64, swap
 	b00 *= t
 	b01 *= t
 	// Exact ∞-norm condition number of the original matrix.
-	// math.Max, not maxPos: a NaN from an overflowing inverse must fail the test.
-	an := math.Max(math.Abs(a00)+math.Abs(a01), math.Abs(a10)+math.Abs(a11))
-	in := math.Max(math.Abs(b00)+math.Abs(b01), math.Abs(b10)+math.Abs(b11))
+	// max (math.Max's rules, inlined), not maxPos: a NaN from an
+	// overflowing inverse must fail the test.
+	an := max(math.Abs(a00)+math.Abs(a01), math.Abs(a10)+math.Abs(a11))
+	in := max(math.Abs(b00)+math.Abs(b01), math.Abs(b10)+math.Abs(b11))
 	cond = an * in
 	if !(cond <= 1e10) {
 		return b, 0, 0, false, 0, false
@@ -381,12 +382,21 @@ func svd2(s, u0, u1, v0, v1 []float64, k *mat.Dense) bool {
 	if !in2Range(a00, a01, a10, a11) || (a00 == 0 && a01 == 0 && a10 == 0 && a11 == 0) {
 		return false
 	}
-	return svd2Of(s, u0, u1, v0, v1, a00, a01, a10, a11)
+	var sv [2]float64
+	var u, v [4]float64
+	if !svd2Of(&sv, &u, &v, a00, a01, a10, a11) {
+		return false
+	}
+	s[0], s[1] = sv[0], sv[1]
+	u0[0], u0[1], u1[0], u1[1] = u[0], u[1], u[2], u[3]
+	v0[0], v0[1], v1[0], v1[1] = v[0], v[1], v[2], v[3]
+	return true
 }
 
 // svd2Of is svd2 of [a00 a01; a10 a11], which the caller has checked to be
-// in range and not zero.
-func svd2Of(s, u0, u1, v0, v1 []float64, a00, a01, a10, a11 float64) bool {
+// in range and not zero, into s, u and v (U and V row by row). It writes
+// nothing when it reports false.
+func svd2Of(s *[2]float64, u, v *[4]float64, a00, a01, a10, a11 float64) bool {
 	d0, e0, d1, hv, tau := bidiag2(a00, a01, a10, a11)
 	if tau != 0 && hv == 0 {
 		return false // underflow inside the reflector: leave it to LAPACK
@@ -443,11 +453,9 @@ func svd2Of(s, u0, u1, v0, v1 []float64, a00, a01, a10, a11 float64) bool {
 		q00, q01 = q01, q00
 		q10, q11 = q11, q10
 	}
-	s[0], s[1] = d0, d1
-	u0[0], u0[1] = q00, q01
-	u1[0], u1[1] = q10, q11
-	v0[0], v0[1] = vt00, vt10
-	v1[0], v1[1] = vt01, vt11
+	*s = [2]float64{d0, d1}
+	*u = [4]float64{q00, q01, q10, q11}
+	*v = [4]float64{vt00, vt10, vt01, vt11}
 	return true
 }
 
