@@ -109,7 +109,8 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
-	nf := w.parseFrom(State{})
+	var nf fromState
+	w.parseFrom(&nf, State{})
 	startTangent := w.tangent(make([]float64, w.tangentSize(&nf)), nominal, &nf)
 	m.pivots = w.sol.Pivots()
 	if w.lu != nil {
@@ -313,6 +314,23 @@ type modelWorker struct {
 	gs     interact.GainSet
 	aopts  interact.Options
 	az     *interact.Analyzer // its results last until the next point
+	block  []float64          // what is left of the block take cuts from
+}
+
+// pointBlock is the number of points whose numbers one block of take
+// holds.
+const pointBlock = 64
+
+// take returns k new zeroed values for a point's state and record, cut
+// from a block shared by several points (one allocation for many; a
+// block lives as long as any of its points' slices).
+func (w *modelWorker) take(k int) []float64 {
+	if len(w.block) < k {
+		w.block = make([]float64, pointBlock*k)
+	}
+	v := w.block[:k:k]
+	w.block = w.block[k:]
+	return v
 }
 
 func (m *modelRun) newWorker() *modelWorker {
@@ -369,11 +387,12 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	opts := w.m.opts.Solver
 	var err error
 	iters := 0
-	f := w.parseFrom(from) // on the stack: no write barriers
+	var f fromState // on the stack: no write barriers
+	w.parseFrom(&f, from)
 	n, no, ni, np := len(w.xpred), len(w.m.outputs), len(w.m.inputs), len(w.m.interest)
 	// One backing array for the state (solved into it), the record's
 	// numbers and the state's tangent.
-	buf := make([]float64, n+no+2*no*ni+np+w.tangentSize(&f))
+	buf := w.take(n + no + 2*no*ni + np + w.tangentSize(&f))
 	var res solve.Result // on the stack: no write barriers
 	solved := false
 	if x0 := w.predict(p, &f); x0 != nil {
@@ -506,22 +525,23 @@ type fromState struct {
 	ok bool // the state has tangent data
 }
 
-func (w *modelWorker) parseFrom(from State) fromState {
-	t, ok := parseTangent(from.Tangent, len(w.m.axes), len(from.X))
-	return fromState{from, t, ok}
+func (w *modelWorker) parseFrom(f *fromState, from State) {
+	f.State = from
+	f.ok = parseTangent(&f.t, from.Tangent, len(w.m.axes), len(from.X))
 }
 
-func parseTangent(t []float64, na, n int) (tangentData, bool) {
-	var d tangentData
+// parseTangent fills d from the tangent data t of a state with n
+// unknowns and reports whether t has the layout of tangentData.
+func parseTangent(d *tangentData, t []float64, na, n int) bool {
 	switch len(t) {
 	case na * (n + 1):
 	case 2*na*(n+1) + n:
 		d.pBack, d.xBack, d.dxBack = t[na*(n+1):na*(n+2)], t[na*(n+2):na*(n+2)+n], t[na*(n+2)+n:]
 	default:
-		return d, false
+		return false
 	}
 	d.p, d.dxdp = t[:na], t[na:na*(n+1)]
-	return d, true
+	return true
 }
 
 // predict returns the state at p predicted from the neighbour's state and
@@ -671,25 +691,29 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 		return nil, nil, err
 	}
 	k := w.k // the analysis copies what it keeps
+	// The matrices are the worker's own, made dense with these shapes.
+	fp, np := w.fp.RawMatrix(), len(m.pcols)
+	dydx, dydu, kr := w.dydx.RawMatrix(), w.dydu.RawMatrix(), k.RawMatrix()
+	rhs, z := w.rhs[:n], w.z[:n]
 	for j := 0; j < ni; j++ {
-		for r := 0; r < n; r++ {
-			w.rhs[r] = -w.fp.At(r, j)
+		for r := range rhs {
+			rhs[r] = -fp.Data[r*fp.Stride+j]
 		}
-		w.lu.SolveWith(w.work, w.z, w.rhs)
+		w.lu.SolveWith(w.work, z, rhs)
 		for i := 0; i < no; i++ {
-			s := w.dydu.At(i, j)
-			row := w.dydx.RawRowView(i)
+			s := dydu.Data[i*dydu.Stride+j]
+			row := dydx.Data[i*dydx.Stride : i*dydx.Stride+n]
 			for c, v := range row {
-				s += v * w.z[c]
+				s += v * z[c]
 			}
-			k.Set(i, j, s*m.inScale[j]/m.outScale[i])
+			kr.Data[i*kr.Stride+j] = s * m.inScale[j] / m.outScale[i]
 		}
 	}
-	for a := range m.axes {
-		for r := 0; r < n; r++ {
-			w.rhs[r] = -w.fp.At(r, ni+a)
+	for a := ni; a < np; a++ {
+		for r := range rhs {
+			rhs[r] = -fp.Data[r*fp.Stride+a]
 		}
-		w.lu.SolveWith(w.work, w.dxda[a*n:(a+1)*n], w.rhs)
+		w.lu.SolveWith(w.work, w.dxda[(a-ni)*n:(a-ni+1)*n], rhs)
 	}
 	gs := w.gs
 	gs.K = k
