@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"runtime"
+	"slices"
 	"sync"
 )
 
@@ -109,11 +110,9 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 	if len(prob.Start) == 0 && prob.NewWorker == nil {
 		panic("sweep: Problem without a start state or worker")
 	}
-	var todo []int // points to emit, in order
-	for _, i := range plan.PointsOf(opts.Shard) {
-		if !opts.Done[i] {
-			todo = append(todo, i)
-		}
+	todo := plan.PointsOf(opts.Shard) // points to emit, in order
+	if len(opts.Done) > 0 {
+		todo = slices.DeleteFunc(todo, func(i int) bool { return opts.Done[i] })
 	}
 	var chains []int
 	for _, c := range plan.ChainsOf(opts.Shard) {
