@@ -256,8 +256,8 @@ func solveChain(ctx context.Context, prob *Problem, wk Worker, recs *recordMaker
 				from, ok = states[j], true
 			}
 			vals := prob.Plan.Points[s.Point]
-			for a, ax := range prob.Plan.Axes {
-				p[ax.Param] = vals[a]
+			for a := range prob.Plan.Axes {
+				p[prob.Plan.Axes[a].Param] = vals[a]
 			}
 			rec, states[k] = solvePoint(ctx, prob, wk, recs, p, s.Point, from, !ok)
 			if ctx.Err() != nil {
@@ -358,8 +358,8 @@ func (m *recordMaker) record(i int) *Record {
 	*r = Record{Index: i, Det: math.NaN(), Cond: math.NaN(),
 		Values: m.vals[:na:na], Pass: m.pass[:0:np]}
 	m.vals, m.pass = m.vals[na:], m.pass[np:]
-	for a, ax := range prob.Plan.Axes {
-		r.Values[a] = ax.Display(prob.Plan.Points[i][a])
+	for a := range prob.Plan.Axes {
+		r.Values[a] = prob.Plan.Axes[a].Display(prob.Plan.Points[i][a])
 	}
 	return r
 }

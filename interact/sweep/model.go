@@ -109,9 +109,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
-	var nf fromState
-	w.parseFrom(&nf, State{})
-	startTangent := w.tangent(make([]float64, w.tangentSize(&nf)), nominal, &nf)
+	startTangent := w.tangent(make([]float64, w.tangentSize(State{})), nominal, State{})
 	m.pivots = w.sol.Pivots()
 	if w.lu != nil {
 		m.gainsLU = new(sparse.LU)
@@ -240,21 +238,22 @@ func passes(v interact.Verdict) bool { return v == interact.Recommended || v == 
 
 // modelRun is what the workers of one model sweep share (read only).
 type modelRun struct {
-	sys      *model.System
-	prog     *jacobian.Program
-	opts     *ModelOptions
-	outputs  []Quantity
-	inputs   []Quantity
-	signalsO []interact.Signal
-	signalsI []interact.Signal
-	outScale []float64 // SI per display unit (differences)
-	inScale  []float64
-	lower    []float64
-	upper    []float64
-	pattern  *jacobian.Sparse
-	interest []interact.Pairing
-	names    []string
-	eqNames  []string
+	sys               *model.System
+	prog              *jacobian.Program
+	opts              *ModelOptions
+	outputs           []Quantity
+	inputs            []Quantity
+	signalsO          []interact.Signal
+	signalsI          []interact.Signal
+	outScale          []float64 // SI per display unit (differences)
+	outOffset, outDiv []float64 // of each output's unit, as model.Unit.FromSI uses them
+	inScale           []float64
+	lower             []float64
+	upper             []float64
+	pattern           *jacobian.Sparse
+	interest          []interact.Pairing
+	names             []string
+	eqNames           []string
 
 	pairNames []string      // names of the pairings of interest
 	pivots    *solve.Pivots // of the nominal solve, where every chain starts
@@ -269,6 +268,11 @@ func (m *modelRun) init() {
 	for _, o := range sys.Outputs {
 		m.outputs = append(m.outputs, Quantity{Name: o.Name, Unit: o.Unit.Text})
 		m.outScale = append(m.outScale, o.Unit.DiffScale())
+		div := o.Unit.Scale
+		if div == 0 {
+			div = 1
+		}
+		m.outOffset, m.outDiv = append(m.outOffset, o.Unit.Offset), append(m.outDiv, div)
 		m.signalsO = append(m.signalsO, interact.Signal{Name: o.Name, Unit: o.Unit.Text, Scale: o.Unit.DiffScale(), Span: o.Span / o.Unit.DiffScale()})
 	}
 	for _, k := range sys.Inputs {
@@ -387,15 +391,13 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	opts := w.m.opts.Solver
 	var err error
 	iters := 0
-	var f fromState // on the stack: no write barriers
-	w.parseFrom(&f, from)
 	n, no, ni, np := len(w.xpred), len(w.m.outputs), len(w.m.inputs), len(w.m.interest)
 	// One backing array for the state (solved into it), the record's
 	// numbers and the state's tangent.
-	buf := w.take(n + no + 2*no*ni + np + w.tangentSize(&f))
+	buf := w.take(n + no + 2*no*ni + np + w.tangentSize(from))
 	var res solve.Result // on the stack: no write barriers
 	solved := false
-	if x0 := w.predict(p, &f); x0 != nil {
+	if x0 := w.predict(p, from); x0 != nil {
 		fast := solve.Options{}
 		if opts != nil {
 			fast = *opts
@@ -434,9 +436,9 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	rec.K, buf = buf[:no*ni:no*ni], buf[no*ni:]
 	rec.RGA, buf = buf[:no*ni:no*ni], buf[no*ni:]
 	rec.NI, buf = buf[:np:np], buf[np:]
-	st.Tangent = w.tangent(buf, p, &f)
-	for i := range w.m.sys.Outputs {
-		rec.Outputs[i] = w.m.sys.Outputs[i].Unit.FromSI(w.y[i])
+	st.Tangent = w.tangent(buf, p, from)
+	for i, v := range w.y {
+		rec.Outputs[i] = (v - w.m.outOffset[i]) / w.m.outDiv[i] // model.Unit.FromSI
 	}
 	for i := 0; i < no; i++ {
 		for j := 0; j < ni; j++ {
@@ -517,31 +519,22 @@ type tangentData struct {
 	pBack, xBack, dxBack []float64 // nil without the neighbour's part
 }
 
-// fromState is the state a point starts from with its tangent data
-// parsed, once for predict, tangentSize and tangent.
-type fromState struct {
-	State
-	t  tangentData
-	ok bool // the state has tangent data
-}
-
-func (w *modelWorker) parseFrom(f *fromState, from State) {
-	f.State = from
-	f.ok = parseTangent(&f.t, from.Tangent, len(w.m.axes), len(from.X))
-}
-
-// parseTangent fills d from the tangent data t of a state with n
-// unknowns and reports whether t has the layout of tangentData.
-func parseTangent(d *tangentData, t []float64, na, n int) bool {
+// tangentOf returns the tangent data of the state from, and whether it has
+// any. The slices are cut from from.Tangent each time: the result is meant
+// for local variables (storing slices in the worker would cost a write
+// barrier per slice while the garbage collector marks).
+func (w *modelWorker) tangentOf(from State) (tangentData, bool) {
+	var d tangentData
+	t, na, n := from.Tangent, len(w.m.axes), len(from.X)
 	switch len(t) {
 	case na * (n + 1):
 	case 2*na*(n+1) + n:
 		d.pBack, d.xBack, d.dxBack = t[na*(n+1):na*(n+2)], t[na*(n+2):na*(n+2)+n], t[na*(n+2)+n:]
 	default:
-		return false
+		return d, false
 	}
 	d.p, d.dxdp = t[:na], t[na:na*(n+1)]
-	return true
+	return d, true
 }
 
 // predict returns the state at p predicted from the neighbour's state and
@@ -551,10 +544,10 @@ func parseTangent(d *tangentData, t []float64, na, n int) bool {
 // lines): then it is the cubic through both states with both tangents
 // (Hermite), which lets Newton converge in one iteration on smooth
 // stretches.
-func (w *modelWorker) predict(p []float64, from *fromState) []float64 {
+func (w *modelWorker) predict(p []float64, from State) []float64 {
 	n := len(from.X)
-	t := &from.t
-	if !from.ok {
+	t, ok := w.tangentOf(from)
+	if !ok {
 		return nil
 	}
 	x := w.xpred
@@ -623,10 +616,10 @@ func (w *modelWorker) predict(p []float64, from *fromState) []float64 {
 
 // tangentSize is the length of the tangent data of a state solved from
 // the neighbour from.
-func (w *modelWorker) tangentSize(from *fromState) int {
+func (w *modelWorker) tangentSize(from State) int {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := na * (n + 1)
-	if from.ok && len(from.X) == n {
+	if _, ok := w.tangentOf(from); ok && len(from.X) == n {
 		size = 2*size + n
 	}
 	return size
@@ -635,18 +628,18 @@ func (w *modelWorker) tangentSize(from *fromState) int {
 // tangent fills t (of tangentSize(from)) with the tangent data of the state
 // just analysed at p, solved from the neighbour from (see tangentData), and
 // returns it.
-func (w *modelWorker) tangent(t, p []float64, from *fromState) []float64 {
+func (w *modelWorker) tangent(t, p []float64, from State) []float64 {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := len(t)
-	back := &from.t
+	back, _ := w.tangentOf(from)
 	for a, k := range w.m.axes {
 		t[a] = p[k]
 	}
-	copy(t[na:], w.dxda)
+	copyf(t[na:], w.dxda)
 	if size > na*(n+1) {
-		copy(t[na*(n+1):], back.p)
-		copy(t[na*(n+2):], from.X)
-		copy(t[na*(n+2)+n:], back.dxdp)
+		copyf(t[na*(n+1):], back.p)
+		copyf(t[na*(n+2):], from.X)
+		copyf(t[na*(n+2)+n:], back.dxdp)
 	}
 	return t
 }
@@ -803,5 +796,13 @@ func writeNode(b *strings.Builder, n model.Node, seen map[model.Node]int) {
 		b.WriteByte(')')
 	default:
 		panic(fmt.Sprintf("sweep: unknown node type %T", n))
+	}
+}
+
+// copyf is copy for the few values of a small model's state, where a loop
+// beats the call to move memory.
+func copyf(dst, src []float64) {
+	for i, v := range src {
+		dst[i] = v
 	}
 }
