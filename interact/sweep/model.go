@@ -109,7 +109,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
-	startTangent := w.tangent(make([]float64, w.tangentSize(State{})), nominal, State{})
+	startTangent := w.tangent(make([]float64, w.tangentSize(State{}, nil)), nominal, State{}, nil)
 	m.pivots = w.sol.Pivots()
 	if w.lu != nil {
 		m.gainsLU = new(sparse.LU)
@@ -394,10 +394,15 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	n, no, ni, np := len(w.xpred), len(w.m.outputs), len(w.m.inputs), len(w.m.interest)
 	// One backing array for the state (solved into it), the record's
 	// numbers and the state's tangent.
-	buf := w.take(n + no + 2*no*ni + np + w.tangentSize(from))
+	var ft *tangentData // the tangent data of from, if it has any
+	t, ok := w.tangentOf(from)
+	if ok {
+		ft = &t // a local only read through: no write barriers
+	}
+	buf := w.take(n + no + 2*no*ni + np + w.tangentSize(from, ft))
 	var res solve.Result // on the stack: no write barriers
 	solved := false
-	if x0 := w.predict(p, from); x0 != nil {
+	if x0 := w.predict(p, from, ft); x0 != nil {
 		fast := solve.Options{}
 		if opts != nil {
 			fast = *opts
@@ -436,7 +441,7 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	rec.K, buf = buf[:no*ni:no*ni], buf[no*ni:]
 	rec.RGA, buf = buf[:no*ni:no*ni], buf[no*ni:]
 	rec.NI, buf = buf[:np:np], buf[np:]
-	st.Tangent = w.tangent(buf, p, from)
+	st.Tangent = w.tangent(buf, p, from, ft)
 	for i, v := range w.y {
 		rec.Outputs[i] = (v - w.m.outOffset[i]) / w.m.outDiv[i] // model.Unit.FromSI
 	}
@@ -538,27 +543,27 @@ func (w *modelWorker) tangentOf(from State) (tangentData, bool) {
 }
 
 // predict returns the state at p predicted from the neighbour's state and
-// tangent, or nil when the neighbour has no tangent. The prediction is
+// its tangent data t, or nil when it has none (t nil). The prediction is
 // first order, x + Σ_a dx/dp_a·Δp_a, unless the step continues the line
 // from the neighbour's own neighbour (the chains of a grid are straight
 // lines): then it is the cubic through both states with both tangents
 // (Hermite), which lets Newton converge in one iteration on smooth
 // stretches.
-func (w *modelWorker) predict(p []float64, from State) []float64 {
+func (w *modelWorker) predict(p []float64, from State, t *tangentData) []float64 {
 	n := len(from.X)
-	t, ok := w.tangentOf(from)
-	if !ok {
+	if t == nil {
 		return nil
 	}
 	x := w.xpred
-	copy(x, from.X)
+	copyf(x, from.X)
+	axes, span := w.m.axes, w.m.axisSpan[:len(w.m.axes)]
 	// Δ = p - p_from and the step back g = p' - p_from, in axis spans.
 	var dd, gg, dg float64
-	for a, k := range w.m.axes {
-		d := (p[k] - t.p[a]) / w.m.axisSpan[a]
+	for a, k := range axes {
+		d := (p[k] - t.p[a]) / span[a]
 		dd += d * d
 		if t.pBack != nil {
-			g := (t.pBack[a] - t.p[a]) / w.m.axisSpan[a]
+			g := (t.pBack[a] - t.p[a]) / span[a]
 			gg, dg = gg+g*g, dg+d*g
 		}
 	}
@@ -572,7 +577,7 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 	}
 	// Whatever the cubic does not cover (all of the step, or the part off
 	// the line) is taken to first order.
-	for a, k := range w.m.axes {
+	for a, k := range axes {
 		dp := p[k] - t.p[a]
 		if cubic {
 			dp -= c * (t.pBack[a] - t.p[a])
@@ -593,7 +598,7 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 		m0, m1 := w.m0, w.m1
 		clear(m0)
 		clear(m1)
-		for a := range w.m.axes {
+		for a := range axes {
 			g := t.pBack[a] - t.p[a]
 			d0, d1 := t.dxdp[a*n:(a+1)*n], t.dxBack[a*n:(a+1)*n]
 			for j := range m0 {
@@ -606,8 +611,9 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 			x[j] += (h00-1)*xf[j] + h10*m0[j] + h01*xb[j] + h11*m1[j]
 		}
 	}
+	lower, upper := w.m.lower[:len(x)], w.m.upper[:len(x)]
 	for j, v := range x {
-		if !(v > w.m.lower[j] && v < w.m.upper[j]) || math.IsInf(v, 0) {
+		if !(v > lower[j] && v < upper[j]) || math.IsInf(v, 0) {
 			x[j] = from.X[j] // keep what would leave the bounds where it was
 		}
 	}
@@ -615,23 +621,22 @@ func (w *modelWorker) predict(p []float64, from State) []float64 {
 }
 
 // tangentSize is the length of the tangent data of a state solved from
-// the neighbour from.
-func (w *modelWorker) tangentSize(from State) int {
+// the neighbour from, whose tangent data is ft (nil: none).
+func (w *modelWorker) tangentSize(from State, ft *tangentData) int {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := na * (n + 1)
-	if _, ok := w.tangentOf(from); ok && len(from.X) == n {
+	if ft != nil && len(from.X) == n {
 		size = 2*size + n
 	}
 	return size
 }
 
-// tangent fills t (of tangentSize(from)) with the tangent data of the state
-// just analysed at p, solved from the neighbour from (see tangentData), and
-// returns it.
-func (w *modelWorker) tangent(t, p []float64, from State) []float64 {
+// tangent fills t (of tangentSize(from, back)) with the tangent data of
+// the state just analysed at p, solved from the neighbour from whose
+// tangent data is back (see tangentData), and returns it.
+func (w *modelWorker) tangent(t, p []float64, from State, back *tangentData) []float64 {
 	na, n := len(w.m.axes), len(w.xpred)
 	size := len(t)
-	back, _ := w.tangentOf(from)
 	for a, k := range w.m.axes {
 		t[a] = p[k]
 	}
