@@ -1,6 +1,7 @@
 package solve
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"math"
@@ -37,23 +38,38 @@ func (s *solver) lean(pt *part) bool {
 // runAll is run on a part with pt.ident, outside the homotopy, without a
 // Recorder (see lean). It leaves the outcome in s.out and reports whether
 // it converged (returning an outcome costs copies of it on the way).
-func (s *solver) runAll(pt *part, x []float64, ftol float64) bool {
+func (s *solver) runAll(ctx context.Context, pt *part, x []float64, ftol float64) bool {
 	n := s.n
 	x = x[:n]
-	f, lo, hi, typ := s.f[:n], s.lo[:n], s.hi[:n], s.typ[:n]
+	// F at x is read where the evaluations leave it, in the cache (s.cf),
+	// not copied to s.f: while the run needs it (the norms, the Newton
+	// step), the last evaluation was at x; it converges with the cache at
+	// x, where finish reads it.
+	f, lo, hi, typ := s.cf[:n], s.lo[:n], s.hi[:n], s.typ[:n]
 	small := 0
 	var norm, phi float64
 	measured := false // norm and phi are those of F at x already
+	// A context whose Done is nil can never be cancelled (its Err stays
+	// nil), and one whose Done is not closed is not cancelled yet: run
+	// asks ctx.Err() at every iteration, this run asks the channel, which
+	// costs no call through the interface for a context that cannot be
+	// cancelled (context.Background, say).
+	done := ctx.Done()
 	for it := 0; ; it++ {
-		if err := s.ctx.Err(); err != nil {
-			return s.stop(outcome{status: Canceled, reason: err.Error(), bad: -1, err: err})
+		if done != nil {
+			select {
+			case <-done:
+				err := ctx.Err()
+				return s.stop(outcome{status: Canceled, reason: err.Error(), bad: -1, err: err})
+			default:
+			}
 		}
-		if measured {
-			// The line search's first trial, evaluated with the Jacobian:
-			// x is that point to the bit, so F and J are in the cache.
-			copyf(f, s.cf)
-		} else {
-			if err := s.residualJacobian(f, x); err != nil {
+		// When measured, the line search's first trial was evaluated with
+		// the Jacobian: x is that point to the bit, so F and J are in the
+		// cache. Else evalAt evaluates them (or finds them there). Outside
+		// the homotopy (lean) F is not shifted.
+		if !measured {
+			if err := s.evalAt(x); err != nil {
 				return s.stop(outcome{status: EvalFailed, bad: -1, err: err, reason: "cannot evaluate the residual: " + err.Error()})
 			}
 			norm, phi = s.measureAll(f)
@@ -185,15 +201,17 @@ func (s *solver) lineSearchAll(x, dir []float64, amax, phi float64) (alpha float
 			xtry[c] = xc + alpha*dir[c]
 		}
 		phiT, nrm := math.Inf(1), 0.0
+		// The first trial is evaluated with the Jacobian, into the cache
+		// (s.cf), where it is measured: not copied to s.ftry as run does
+		// (lean is outside the homotopy: no shift).
 		err := errNotEvaluated
 		if first {
-			err = s.residualJacobian(s.ftry, xtry)
+			err = s.evalAt(xtry)
 		}
 		withJ := err == nil
-		if err != nil {
-			err = s.residual(s.ftry, xtry)
-		}
-		if err == nil {
+		if withJ {
+			nrm, phiT = s.measureAll(s.cf[:n])
+		} else if err = s.residual(s.ftry, xtry); err == nil {
 			nrm, phiT = s.measureAll(s.ftry)
 		}
 		if phiT <= (1-2e-4*alpha)*phi {

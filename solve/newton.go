@@ -89,12 +89,23 @@ type Result struct {
 	Blocks             int     // strongly connected blocks of the system
 }
 
-// resolveInto sets *r to o with the defaults filled in.
+// resolveInto sets *r to o with the defaults filled in. It copies field
+// by field and stores the Recorder only when either is set: copying the
+// struct whole costs a bulk write barrier for its func field while the
+// collector marks, which a warm solve of a small system feels.
 func (o *Options) resolveInto(r *Options) {
 	if o != nil {
-		*r = *o
+		r.MaxIter, r.FTol, r.XTol, r.HomotopySteps = o.MaxIter, o.FTol, o.XTol, o.HomotopySteps
+		r.NoHomotopy, r.NoBlocks = o.NoHomotopy, o.NoBlocks
+		if o.Recorder != nil || r.Recorder != nil {
+			r.Recorder = o.Recorder
+		}
 	} else {
-		*r = Options{}
+		r.MaxIter, r.FTol, r.XTol, r.HomotopySteps = 0, 0, 0, 0
+		r.NoHomotopy, r.NoBlocks = false, false
+		if r.Recorder != nil {
+			r.Recorder = nil
+		}
 	}
 	if r.MaxIter <= 0 {
 		r.MaxIter = 50
@@ -129,15 +140,16 @@ type solver struct {
 	f0  []float64 // F(x₀)
 
 	general bool // never the lean run (Solver.general, for tests)
-	// After a lean run that converged, until the next run: s.f holds F at
-	// the point reached (unshifted) and convNorm its scaled max norm.
+	// After a lean run that converged, until the next run or evaluation:
+	// the cache (cx, cf) is at the point reached, and convNorm is the
+	// scaled max norm of F there.
 	conv     bool
 	convNorm float64
 	out      outcome // of the last runOK or runAll
 
 	iters    int
 	lastStep float64
-	method   string
+	method   method
 	colMap   []int
 
 	// The last point where F and J were evaluated together, with F
@@ -148,6 +160,43 @@ type solver struct {
 	cx, cf []float64
 	cOK    bool
 	y      []float64 // the iterate of a run
+}
+
+// method is what a solve is trying (or tried last); its name is the
+// Result's Method. A number, not the name, so that setting it costs no
+// write barrier.
+type method uint8
+
+const (
+	noMethod method = iota
+	newtonMethod
+	blocksMethod
+	homotopyMethod
+	structureMethod
+)
+
+func (m method) String() string {
+	switch m {
+	case newtonMethod:
+		return "newton"
+	case blocksMethod:
+		return "newton+blocks"
+	case homotopyMethod:
+		return "homotopy"
+	case structureMethod:
+		return "structure"
+	}
+	return ""
+}
+
+// setMethod sets res.Method to m's name, storing the string only when it
+// is not already there (a store of a string costs a write barrier while
+// the collector marks, and a Result reused from solve to solve usually
+// has the name already).
+func setMethod(res *Result, m method) {
+	if name := m.String(); res.Method != name {
+		res.Method = name
+	}
 }
 
 // outcome is how one run ended.
@@ -305,7 +354,7 @@ func NewSolver(prob *Problem) *Solver { return &Solver{prob: prob} }
 func (sv *Solver) Jacobian(x []float64) ([]float64, error) {
 	s := sv.work
 	if s == nil || len(x) != s.n {
-		sv.prepare(context.Background(), nil)
+		sv.prepare(nil)
 		s = sv.work
 	}
 	if err := s.evalAt(x); err != nil {
@@ -315,7 +364,7 @@ func (sv *Solver) Jacobian(x []float64) ([]float64, error) {
 }
 
 // prepare resets the work space for a new solve.
-func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
+func (sv *Solver) prepare(opts *Options) *solver {
 	prob, n := sv.prob, sv.prob.N
 	s := sv.work
 	if s == nil || s.n != n {
@@ -329,9 +378,13 @@ func (sv *Solver) prepare(ctx context.Context, opts *Options) *solver {
 		s.colMap = filled(n, -1)
 		sv.work = s
 	}
-	s.ctx, s.prob, s.general = ctx, prob, sv.general
+	// s.prob is sv.prob, set when s was made. s.ctx is set only where a
+	// run other than the lean one needs it (ctx is handed to the lean run
+	// and to canceled): storing an interface costs a write barrier while
+	// the collector marks.
+	s.general = sv.general
 	opts.resolveInto(&s.opt)
-	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled, s.conv = 1, false, 0, 0, "", false, false
+	s.t, s.hom, s.iters, s.lastStep, s.method, s.scaled, s.conv = 1, false, 0, 0, noMethod, false, false
 	// The functions may give other values than at the last solve (new
 	// parameters behind them): forget the last evaluation.
 	s.cOK = false
@@ -360,13 +413,14 @@ func (sv *Solver) Solve(ctx context.Context, x0 []float64, opts *Options) (*Resu
 func (sv *Solver) SolveInto(ctx context.Context, dst *Result, x0 []float64, opts *Options) error {
 	sv.check(x0)
 	n := sv.prob.N
-	x := dst.X
-	if cap(x) >= n {
-		x = x[:n]
-	} else {
-		x = make([]float64, n)
+	// Every field but X is set by the solve (each of its endings sets them
+	// all); X is stored only when it changes: a Result reused from solve
+	// to solve then takes no write barrier for it.
+	if cap(dst.X) < n {
+		dst.X = make([]float64, n)
+	} else if len(dst.X) != n {
+		dst.X = dst.X[:n]
 	}
-	*dst = Result{X: x}
 	_, err := sv.solve(ctx, dst, x0, opts)
 	return err
 }
@@ -401,11 +455,12 @@ const smallResult = 4
 func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Options) (*Result, error) {
 	prob := sv.prob
 	n := prob.N
-	s := sv.prepare(ctx, opts)
+	s := sv.prepare(opts)
 
-	x := res.X
-	copyf(x, x0)
-	s.setBounds(x)
+	// x is the guess moved inside its bounds, y (the iterate of the
+	// runs) a copy of it.
+	x, y := res.X, s.y
+	s.setBounds(x, y, x0)
 
 	// Structure first: a structurally singular system needs a different
 	// specification, not a better guess.
@@ -431,10 +486,9 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 	// Equation scales at the guess.
 	if err := s.evalAt(x); err != nil {
 		return s.fail(res, x, outcome{status: EvalFailed, bad: -1, err: err,
-			reason: "the residual cannot be evaluated at the starting guess: " + err.Error()}, "newton")
+			reason: "the residual cannot be evaluated at the starting guess: " + err.Error()}, newtonMethod)
 	}
-	copyf(s.f0, s.cf)
-	s.setScales()
+	s.setScales() // and F(x₀) into s.f0
 
 	if sv.full == nil {
 		sv.full = s.newPart(-1, seq(n), seq(n))
@@ -460,9 +514,8 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 
 	// 1. Block by block, when there is more than one block.
 	if !s.opt.NoBlocks && len(st.Blocks) > 1 {
-		s.method = "newton+blocks"
-		y := s.y
-		copyf(y, x)
+		s.method = blocksMethod
+		s.ctx = ctx
 		var out outcome
 		for b, blk := range st.Blocks {
 			if sv.blocks[b] == nil {
@@ -482,22 +535,23 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 			return s.done(res, y)
 		}
 		if out.status == Canceled {
-			return s.canceled(res, y)
+			return s.canceled(ctx, res, y)
 		}
 		reasons = append(reasons, "block Newton: "+out.reason)
 		keep(y)
 	}
 
 	// 2. Newton on the whole system.
-	s.method = "newton"
-	y := s.y
-	copyf(y, x)
-	if s.runOK(full, y, s.opt.FTol) {
+	s.method = newtonMethod
+	if !s.opt.NoBlocks && len(st.Blocks) > 1 {
+		copyf(y, x) // the blocks' runs moved it
+	}
+	if s.runOK(ctx, full, y, s.opt.FTol) {
 		return s.done(res, y)
 	}
 	out := s.out
 	if out.status == Canceled {
-		return s.canceled(res, y)
+		return s.canceled(ctx, res, y)
 	}
 	reasons = append(reasons, "Newton: "+out.reason)
 	keep(y)
@@ -505,14 +559,15 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 
 	// 3. Homotopy from the guess.
 	if !s.opt.NoHomotopy {
-		s.method = "homotopy"
+		s.method = homotopyMethod
+		s.ctx = ctx
 		copyf(y, x)
 		out = s.homotopy(full, y)
 		if out.ok() {
 			return s.done(res, y)
 		}
 		if out.status == Canceled {
-			return s.canceled(res, y)
+			return s.canceled(ctx, res, y)
 		}
 		reasons = append(reasons, "homotopy: "+out.reason)
 		keep(y)
@@ -532,10 +587,16 @@ func (sv *Solver) solve(ctx context.Context, res *Result, x0 []float64, opts *Op
 	return s.fail(res, best, last, s.method)
 }
 
-// setBounds fills lo, hi and typ and moves x strictly inside its bounds.
-func (s *solver) setBounds(x []float64) {
+// setBounds fills lo, hi and typ and sets x and y to x0 moved strictly
+// inside its bounds (x0 may be x or y).
+//
+// Nothing of it is kept from solve to solve: the bounds may change between
+// solves (in place, too), and reading them to see whether they did costs
+// what mapping them does (a NaN is no bound); the typical sizes come from
+// x where Problem.Typical gives none.
+func (s *solver) setBounds(x, y, x0 []float64) {
 	p, n := s.prob, s.n
-	x, lo, hi, typs := x[:n], s.lo[:n], s.hi[:n], s.typ[:n]
+	x, y, x0, lo, hi, typs := x[:n], y[:n], x0[:n], s.lo[:n], s.hi[:n], s.typ[:n]
 	var lower, upper, typical []float64
 	if p.Lower != nil {
 		lower = p.Lower[:n]
@@ -547,57 +608,81 @@ func (s *solver) setBounds(x []float64) {
 		typical = p.Typical[:n]
 	}
 	inf := math.Inf(1)
-	for j, xj := range x {
+	for j, xj := range x0 {
 		l, h := -inf, inf
-		if lower != nil && !math.IsNaN(lower[j]) {
-			l = lower[j]
+		if lower != nil {
+			if v := lower[j]; v == v {
+				l = v
+			}
 		}
-		if upper != nil && !math.IsNaN(upper[j]) {
-			h = upper[j]
+		if upper != nil {
+			if v := upper[j]; v == v {
+				h = v
+			}
 		}
 		lo[j], hi[j] = l, h
+		// A positive finite typical size, else |x_j| when that is
+		// positive and finite, else the largest finite |bound|, else 1.
 		typ := 0.0
-		if typical != nil && typical[j] > 0 && !math.IsInf(typical[j], 0) {
-			typ = typical[j]
-		}
-		if typ == 0 && xj != 0 && !math.IsInf(xj, 0) && !math.IsNaN(xj) {
-			typ = math.Abs(xj)
-		}
-		if typ == 0 {
-			if !math.IsInf(l, 0) {
-				typ = max(typ, math.Abs(l))
-			}
-			if !math.IsInf(h, 0) {
-				typ = max(typ, math.Abs(h))
+		if typical != nil {
+			if t := typical[j]; t > 0 && t < inf {
+				typ = t
 			}
 		}
 		if typ == 0 {
-			typ = 1
+			if a := math.Abs(xj); a != 0 && a < inf {
+				typ = a
+			} else {
+				typ = typOfBounds(l, h)
+			}
 		}
 		typs[j] = typ
 		// Project the guess strictly inside.
-		if math.IsNaN(xj) || math.IsInf(xj, 0) {
+		if xj-xj != 0 { // NaN or ±Inf
 			xj = 0
 		}
-		margin := 1e-8 * typ
-		if w := h - l; w < inf {
-			margin = min(margin, 0.01*w)
-		}
 		if xj <= l {
-			xj = min(l+margin, l+0.5*(h-l))
+			xj = min(l+margin(typ, l, h), l+0.5*(h-l))
 		}
 		if xj >= h {
-			xj = max(h-margin, l+0.5*(h-l))
+			xj = max(h-margin(typ, l, h), l+0.5*(h-l))
 		}
-		x[j] = xj
+		x[j], y[j] = xj, xj
 	}
+}
+
+// typOfBounds is the typical size of an unknown taken from its bounds:
+// the largest finite |bound|, 1 when there is none or it is 0.
+func typOfBounds(l, h float64) float64 {
+	typ := 0.0
+	if !math.IsInf(l, 0) {
+		typ = max(typ, math.Abs(l))
+	}
+	if !math.IsInf(h, 0) {
+		typ = max(typ, math.Abs(h))
+	}
+	if typ == 0 {
+		typ = 1
+	}
+	return typ
+}
+
+// margin is how far inside its bounds l and h a guess on or beyond one is
+// put: 1e-8 of its typical size, at most 1 % of the width.
+func margin(typ, l, h float64) float64 {
+	m := 1e-8 * typ
+	if w := h - l; w < math.Inf(1) {
+		m = min(m, 0.01*w)
+	}
+	return m
 }
 
 // setScales sets each equation's scale from the Jacobian at the guess
 // (in s.jval): the largest |∂F_i/∂x_j|·typical_j, 1 when that is zero.
+// It also copies F at the guess (s.cf) into s.f0, in the same loop.
 func (s *solver) setScales() {
 	p, n := s.prob, s.n
-	rowPtr, scale, typ := p.RowPtr[:n+1], s.scale[:n], s.typ[:n]
+	rowPtr, scale, typ, f0, cf := p.RowPtr[:n+1], s.scale[:n], s.typ[:n], s.f0[:n], s.cf[:n]
 	nnz := rowPtr[n]
 	colIdx, jval := p.ColIdx[:nnz], s.jval[:nnz]
 	k0 := rowPtr[0]
@@ -616,6 +701,7 @@ func (s *solver) setScales() {
 			m = 1
 		}
 		scale[i] = m
+		f0[i] = cf[i]
 		k0 = k1
 	}
 	s.scaled = true
@@ -773,11 +859,12 @@ func (s *solver) normOf(f []float64) float64 {
 
 // runOK is run, with its outcome left in s.out: it reports whether the run
 // converged, without the copies of the outcome that a caller of run makes.
-func (s *solver) runOK(pt *part, x []float64, ftol float64) bool {
+func (s *solver) runOK(ctx context.Context, pt *part, x []float64, ftol float64) bool {
 	if s.lean(pt) {
 		s.conv = false
-		return s.runAll(pt, x, ftol)
+		return s.runAll(ctx, pt, x, ftol)
 	}
+	s.ctx = ctx
 	s.out = s.run(pt, x, ftol)
 	return s.out.status == Converged
 }
@@ -786,7 +873,7 @@ func (s *solver) runOK(pt *part, x []float64, ftol float64) bool {
 func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 	s.conv = false
 	if s.lean(pt) {
-		s.runAll(pt, x, ftol)
+		s.runAll(s.ctx, pt, x, ftol)
 		return s.out
 	}
 	small := 0
@@ -919,7 +1006,7 @@ func (s *solver) run(pt *part, x []float64, ftol float64) outcome {
 		}
 		if s.opt.Recorder != nil {
 			nrm, _ := s.measure(pt, s.ftry)
-			s.opt.Recorder(Iteration{Method: s.method, Block: pt.block, T: s.t, Iter: it + 1,
+			s.opt.Recorder(Iteration{Method: s.method.String(), Block: pt.block, T: s.t, Iter: it + 1,
 				ScaledResidualNorm: nrm, StepNorm: step, Alpha: alpha})
 		}
 	}
@@ -1011,33 +1098,33 @@ func (s *solver) homotopy(full *part, x []float64) outcome {
 func (s *solver) done(res *Result, x []float64) (*Result, error) {
 	copyf(res.X, x)
 	res.Status = Converged
-	res.Method = s.method
+	setMethod(res, s.method)
 	s.finish(res)
 	return res, nil
 }
 
-func (s *solver) canceled(res *Result, x []float64) (*Result, error) {
+func (s *solver) canceled(ctx context.Context, res *Result, x []float64) (*Result, error) {
 	copyf(res.X, x)
 	res.Status = Canceled
-	res.Method = s.method
+	setMethod(res, s.method)
 	s.finish(res)
-	return res, s.ctx.Err()
+	return res, ctx.Err()
 }
 
 func (s *solver) finish(res *Result) {
 	res.Iterations = s.iters
 	res.StepNorm = s.lastStep
-	res.ResidualNorm, res.ScaledResidualNorm = math.NaN(), math.NaN()
 	if s.conv {
 		// res.X is the point the lean run converged at: F there is in
-		// s.f, and its scaled norm was measured.
+		// the cache, and its scaled norm was measured.
 		m := 0.0
-		for _, v := range s.f {
+		for _, v := range s.cf {
 			m = max(m, math.Abs(v))
 		}
 		res.ResidualNorm, res.ScaledResidualNorm = m, s.convNorm
 		return
 	}
+	res.ResidualNorm, res.ScaledResidualNorm = math.NaN(), math.NaN()
 	if err := s.residual(s.ftry, res.X); err == nil {
 		m := 0.0
 		for _, v := range s.ftry {
@@ -1051,10 +1138,10 @@ func (s *solver) finish(res *Result) {
 }
 
 // fail builds the NotConverged error at x, the best point reached.
-func (s *solver) fail(res *Result, x []float64, out outcome, method string) (*Result, error) {
+func (s *solver) fail(res *Result, x []float64, out outcome, m method) (*Result, error) {
 	copyf(res.X, x)
 	res.Status = out.status
-	res.Method = method
+	setMethod(res, m)
 	if !s.scaled {
 		for i := range s.scale {
 			s.scale[i] = 1
@@ -1139,7 +1226,8 @@ func (s *solver) structuralFailure(res *Result, st *structure.Structure) (*Resul
 			strings.Join(vars, ", "), strings.Join(names(st.UnderEquations, s.eqName), ", ")))
 	}
 	res.Status = StructurallySingular
-	res.Method = "structure"
+	setMethod(res, structureMethod)
+	res.Iterations, res.StepNorm = 0, 0
 	res.ResidualNorm, res.ScaledResidualNorm = math.NaN(), math.NaN()
 	return res, &NotConverged{Status: StructurallySingular, Norm: math.NaN(), Reason: reason,
 		WorstUnknowns: vars, Hint: strings.Join(hint, "; ")}
