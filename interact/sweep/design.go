@@ -62,15 +62,23 @@ type Step struct {
 }
 
 // Plan is a sweep's design laid out: the points (SI values, point i at
-// Points[i]) and the continuation chains that solve them. A Plan is a pure
+// Point(i)) and the continuation chains that solve them. A Plan is a pure
 // function of its axes and design.
 type Plan struct {
 	Axes   []Axis
 	Design Design
-	Points [][]float64 // Points[i][a] is axis a's SI value at point i
-	Chains [][]Step    // every point is in exactly one chain
+	Chains [][]Step // every point is in exactly one chain
 
-	dims []int // grid: points per axis
+	values []float64 // point i's axis values at [i·len(Axes), (i+1)·len(Axes))
+	n      int       // points
+	dims   []int     // grid: points per axis
+}
+
+// Point returns the SI values of the axes at point i, in axis order. The
+// slice is the plan's own: do not modify it.
+func (p *Plan) Point(i int) []float64 {
+	na := len(p.Axes)
+	return p.values[i*na : (i+1)*na : (i+1)*na]
 }
 
 // NewPlan lays out the design over the axes. The points of a grid are
@@ -115,7 +123,7 @@ func NewPlan(axes []Axis, d Design) (*Plan, error) {
 }
 
 // Len is the number of points.
-func (p *Plan) Len() int { return len(p.Points) }
+func (p *Plan) Len() int { return p.n }
 
 // IsGrid reports whether the plan is a full grid.
 func (p *Plan) IsGrid() bool { return p.dims != nil }
@@ -154,17 +162,15 @@ func (p *Plan) grid() {
 		vals[a] = ax.Values()
 		total *= ax.Points
 	}
-	p.Points = make([][]float64, total)
 	na := len(p.Axes)
-	flat := make([]float64, total*na) // one array behind all the points
-	for i := range p.Points {
-		pt := flat[i*na : (i+1)*na : (i+1)*na]
+	p.n, p.values = total, make([]float64, total*na) // one array, no pointer per point
+	for i := range total {
+		pt := p.Point(i)
 		r := i // GridIndex, without its slice
 		for a := na - 1; a >= 0; a-- {
 			pt[a] = vals[a][r%p.dims[a]]
 			r /= p.dims[a]
 		}
-		p.Points[i] = pt
 	}
 	if len(p.Axes) == 1 {
 		chain := make([]Step, total)
@@ -243,9 +249,9 @@ func (p *Plan) scatter() {
 			}
 		}
 	}
-	p.Points = make([][]float64, n)
+	p.n, p.values = n, make([]float64, n*dim)
 	for i := range u {
-		pt := make([]float64, dim)
+		pt := p.Point(i)
 		for a, ax := range p.Axes {
 			if ax.Points == 1 {
 				pt[a] = ax.From
@@ -254,7 +260,6 @@ func (p *Plan) scatter() {
 			}
 			pt[a] = ax.at(u[i][a])
 		}
-		p.Points[i] = pt
 	}
 	nominal := make([]float64, dim)
 	for a, ax := range p.Axes {
@@ -332,7 +337,7 @@ func grow(slab []int, u [][]float64, nominal []float64) []Step {
 func (p *Plan) Neighbours() [][2]int {
 	var out [][2]int
 	if p.IsGrid() {
-		for i := range p.Points {
+		for i := range p.n {
 			idx := p.GridIndex(i)
 			for a := range idx {
 				if idx[a]+1 < p.dims[a] {

@@ -80,7 +80,8 @@ func TestDesigns(t *testing.T) {
 		if d.Kind == LHS {
 			for a, ax := range axes {
 				strata := make([]int, d.Points)
-				for _, pt := range p.Points {
+				for i := range p.Len() {
+					pt := p.Point(i)
 					strata[min(int(ax.unit(pt[a])*float64(d.Points)), d.Points-1)]++
 				}
 				for s, n := range strata {
@@ -91,9 +92,9 @@ func TestDesigns(t *testing.T) {
 			}
 		}
 		q, _ := NewPlan(axes, d)
-		for i := range p.Points {
-			for a := range p.Points[i] {
-				if p.Points[i][a] != q.Points[i][a] || math.IsNaN(p.Points[i][a]) {
+		for i := range p.Len() {
+			for a := range p.Point(i) {
+				if p.Point(i)[a] != q.Point(i)[a] || math.IsNaN(p.Point(i)[a]) {
 					t.Fatalf("%s: the plan is not a function of axes and design", d)
 				}
 			}

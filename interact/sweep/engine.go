@@ -255,7 +255,7 @@ func solveChain(ctx context.Context, prob *Problem, wk Worker, recs *recordMaker
 			if j := parentStep(chain, k); j >= 0 && states[j].X != nil {
 				from, ok = states[j], true
 			}
-			vals := prob.Plan.Points[s.Point]
+			vals := prob.Plan.Point(s.Point)
 			for a := range prob.Plan.Axes {
 				p[prob.Plan.Axes[a].Param] = vals[a]
 			}
@@ -359,7 +359,7 @@ func (m *recordMaker) record(i int) *Record {
 		Values: m.vals[:na:na], Pass: m.pass[:0:np]}
 	m.vals, m.pass = m.vals[na:], m.pass[np:]
 	for a := range prob.Plan.Axes {
-		r.Values[a] = prob.Plan.Axes[a].Display(prob.Plan.Points[i][a])
+		r.Values[a] = prob.Plan.Axes[a].Display(prob.Plan.Point(i)[a])
 	}
 	return r
 }

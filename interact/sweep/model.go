@@ -173,7 +173,7 @@ func solveHeads(ctx context.Context, prob *Problem, w Worker) error {
 	first := func(c int) int { return plan.Chains[c][0].Point }
 	near, best := 0, math.Inf(1)
 	for c := range plan.Chains {
-		if d := math.Abs(plan.Points[first(c)][0] - plan.Axes[0].Nominal); d < best {
+		if d := math.Abs(plan.Point(first(c))[0] - plan.Axes[0].Nominal); d < best {
 			near, best = c, d
 		}
 	}
@@ -191,7 +191,7 @@ func solveHeads(ctx context.Context, prob *Problem, w Worker) error {
 			}
 			i := first(c)
 			for a, ax := range plan.Axes {
-				p[ax.Param] = plan.Points[i][a]
+				p[ax.Param] = plan.Point(i)[a]
 			}
 			rec, st := solvePoint(ctx, prob, w, recs, p, i, from, fromStart)
 			h := &Head{Record: rec}
