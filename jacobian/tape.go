@@ -73,10 +73,10 @@ type instr struct {
 // arithmetic op of its source form. Values come from w; adjoints live in a
 // second array d, laid out as
 //
-//	d = [ zero | sink | one region per tape of the group ]
+//	d = [ zero | sink | one | one region per tape of the group ]
 //
-// where zero always holds 0 and sink receives the adjoints of constants,
-// which nobody reads. A tape's region holds the adjoints of the unknowns it
+// where zero always holds 0, sink receives the adjoints of constants,
+// which nobody reads, and one always holds 1. A tape's region holds the adjoints of the unknowns it
 // loads (in the order of tape.vars), of its parameters (tape.params) and of
 // its temporaries, so the sweeps of different tapes never touch the same
 // number and may run in any order, interleaved.
@@ -107,10 +107,13 @@ type batch struct {
 	dlen, wlen int
 }
 
-// Positions of the zero and sink slots in d.
+// Positions of the zero, sink and one slots in d. The one slot always
+// holds 1: a plan reads there the derivative of a tape with respect to the
+// symbol that is its result (gradPlan).
 const (
 	dZero = 0
 	dSink = 1
+	dOne  = 2
 )
 
 // varRef ties a load instruction to the symbol it loads.
@@ -146,6 +149,7 @@ type tape struct {
 	out     int32   // index in w of the result
 	adj0    int32   // start of the tape's region of d: unknowns, then parameters
 	rootAdj int32   // index in d of the result's adjoint
+	nsteps  int     // steps of its reverse sweep (0: the result is a load or a constant)
 	zero    []int32 // adjoints in d to clear before the sweep: those no step reaches
 	slot    []int32 // index in w of the value of each source op
 	aslot   []int32 // index in d of the adjoint of each source op up to root
@@ -158,6 +162,7 @@ type tape struct {
 type fwdProgram struct {
 	code []instr
 	runs []run
+	id   int // which of its Program's groups it computes, from 1 (Eval.cur)
 }
 
 // run is a stretch of n consecutive instructions with the same op.
