@@ -129,6 +129,9 @@ func Compile(sys *model.System) (*Program, error) {
 	prog.outFwd, prog.outRev = lower(prog.outs, false)
 	prog.defFwd, _ = lower(prog.defs, false) // reverse sweeps kept only for describing errors
 	prog.chkFwd, _ = lower(prog.checks, false)
+	for id, f := range []*fwdProgram{prog.eqFwd, prog.outFwd, prog.defFwd, prog.chkFwd} {
+		f.id = id + 1
+	}
 
 	pat := &Sparse{Rows: len(prog.eqs), Cols: prog.nx, RowPtr: make([]int, len(prog.eqs)+1)}
 	for i, t := range prog.eqs {
@@ -233,10 +236,14 @@ func (p *Program) NewJacobian() *Sparse { return p.pattern.clone(true) }
 func (p *Program) NewEval() *Eval {
 	w := make([]float64, p.size)
 	copy(w[p.nx+p.np:], p.consts)
+	d := make([]float64, p.dsize)
+	d[dOne] = 1
 	return &Eval{
 		prog: p,
+		nx:   p.nx,
+		np:   p.np,
 		w:    w,
-		d:    make([]float64, p.dsize),
+		d:    d,
 		vals: make([]float64, p.maxOps),
 		adj:  make([]float64, p.maxOps),
 		padj: make([]float64, p.np),

@@ -19,6 +19,7 @@ import (
 // then only partly filled.
 type Eval struct {
 	prog   *Program
+	nx, np int       // the program's, read on every call
 	w      []float64 // value space: x, p, the constants, the temporaries of a forward program
 	d      []float64 // adjoints: zero, sink, one region per tape of a group
 	vals   []float64 // values of the source form of a tape, gathered to describe an error
@@ -27,10 +28,11 @@ type Eval struct {
 	xw, pw []float64 // perturbed copies of x and p for finite differences
 	f1, f2 []float64 // residuals for finite differences
 
-	// cur is the forward program whose values w holds for the x and p in
-	// w (nil when none does): a group's values are computed once for a
-	// point, however many of its methods are called there.
-	cur *fwdProgram
+	// cur is the id of the forward program whose values w holds for the
+	// x and p in w (0 when none does): a group's values are computed once
+	// for a point, however many of its methods are called there. An int,
+	// not a pointer, so that setting it costs no write barrier.
+	cur int
 
 	// The equations' reverse steps leading to the parameters last asked
 	// of ParamJacobian, and the plans of the last ParamJacobian and
@@ -44,53 +46,67 @@ type Eval struct {
 // When they are those already there, to the bit, the values of the forward
 // program last run are kept.
 func (e *Eval) check(x, p []float64) {
-	nx, np := e.prog.nx, e.prog.np
-	if len(x) != nx {
-		panic(fmt.Sprintf("jacobian: len(x) = %d, want %d", len(x), nx))
+	nx := e.nx
+	if len(x) != nx || len(p) != e.np {
+		panic(e.lengthsMessage(len(x), len(p)))
 	}
-	if len(p) != np {
-		panic(fmt.Sprintf("jacobian: len(p) = %d, want %d", len(p), np))
-	}
-	cx := setBits(e.w[:nx], x)
-	cp := setBits(e.w[nx:nx+np], p)
-	if cx || cp {
-		e.cur = nil
+	w := e.w[:nx+len(p)]
+	if setBits(w[:nx], x)|setBits(w[nx:], p) != 0 {
+		e.cur = 0
 	}
 }
 
-// setBits copies src into dst (of equal length), reporting whether any
-// number changed, to the bit.
-func setBits(dst, src []float64) bool {
-	dst = dst[:len(src)]
-	changed := false
-	for i, v := range src {
-		if math.Float64bits(v) != math.Float64bits(dst[i]) {
-			dst[i] = v
-			changed = true
-		}
+func (e *Eval) lengthsMessage(nx, np int) string {
+	if nx != e.nx {
+		return fmt.Sprintf("jacobian: len(x) = %d, want %d", nx, e.nx)
 	}
-	return changed
+	return fmt.Sprintf("jacobian: len(p) = %d, want %d", np, e.np)
+}
+
+// setBits copies src into dst (at least as long) and returns a number
+// that is 0 when no element changed, to the bit (so -0 differs from 0, and
+// a NaN equals only the same NaN). One pass, without a branch per element
+// (every element is written; the unchanged ones with the same bits).
+func setBits(dst, src []float64) uint64 {
+	dst = dst[:len(src)]
+	var diff uint64
+	for i, v := range src {
+		diff |= math.Float64bits(v) ^ math.Float64bits(dst[i])
+		dst[i] = v
+	}
+	return diff
 }
 
 // run makes w hold the values of the forward program f at the x and p in
 // w, running it unless it was the last run there.
 func (e *Eval) run(f *fwdProgram) {
-	if e.cur != f {
+	if e.cur != f.id {
 		forward(f, e.w, e.prog.base)
-		e.cur = f
+		e.cur = f.id
 	}
 }
 
+// checkLen panics unless got == want; the message is built out of line,
+// so that the check itself is inlined.
 func checkLen(what string, got, want int) {
 	if got != want {
-		panic(fmt.Sprintf("jacobian: len(%s) = %d, want %d", what, got, want))
+		panic(lenMessage(what, got, want))
 	}
 }
 
+func lenMessage(what string, got, want int) string {
+	return fmt.Sprintf("jacobian: len(%s) = %d, want %d", what, got, want)
+}
+
+// checkDims panics unless m is r×c, as checkLen.
 func checkDims(what string, m *mat.Dense, r, c int) {
 	if mr, mc := m.Dims(); mr != r || mc != c {
-		panic(fmt.Sprintf("jacobian: %s is %d×%d, want %d×%d", what, mr, mc, r, c))
+		panic(dimsMessage(what, mr, mc, r, c))
 	}
+}
+
+func dimsMessage(what string, mr, mc, r, c int) string {
+	return fmt.Sprintf("jacobian: %s is %d×%d, want %d×%d", what, mr, mc, r, c)
 }
 
 // value returns the value of t after the forward program of its group,
@@ -339,18 +355,31 @@ func (e *Eval) checkCols(cols []int) {
 // gradPlan is what grad needs for the rows of a group of tapes and one set
 // of parameter columns, prepared on the first call with them: the reverse
 // steps to run, and where in d each entry of the rows is found.
+//
+// A tape whose reverse sweep has no steps (its result is an unknown, a
+// parameter or a constant, as outputs often are) has derivatives that are
+// constants: after the seeds, the adjoint of its result holds 1 and those
+// of the other symbols it loads 0. The plan reads them from the one and
+// zero slots of d instead, and when every entry is read there it runs no
+// reverse steps and checks no derivative (a copy of the value and a unit
+// row, to the bit what the sweep would give).
 type gradPlan struct {
 	ok           bool
 	wantX, wantP bool  // rows of dx, of dp
 	cols         []int // the parameter columns, when wantP
 	rev          *revCode
-	// Entry k of the rows of dx is (xRow[k], xCol[k]), found at xSrc[k] in
-	// d: the unknowns each tape loads (the other entries are 0). pIdx[i*len(cols)+k]
-	// is the index in d of d tape i / d p[cols[k]]: the adjoint in the
-	// tape's region, or the zero slot when the tape does not load it.
+	needRev      bool // some entry is read from a region of d, or rev has steps
+	// The rows of dx: element (i, j) of dx, an r×c matrix, is
+	// d[xIdx[i*c+j]] when xIdx is not nil (small or dense rows);
+	// otherwise entry k of the rows is (xRow[k], xCol[k]), found at
+	// xSrc[k] in d: the unknowns each tape loads (the other entries are
+	// 0). pIdx[i*len(cols)+k] is the index in d of d tape i / d p[cols[k]]:
+	// the adjoint in the tape's region, or the zero slot when the tape does
+	// not load it.
+	xIdx             []int32
 	xRow, xCol, xSrc []int32
 	pIdx             []int32
-	dIdx             []int32 // xSrc (when wantX) then pIdx (when wantP)
+	dIdx             []int32 // the entries read from the regions of d, checked finite
 }
 
 // fits reports whether the plan serves a call with these columns and
@@ -363,22 +392,41 @@ func (pl *gradPlan) fits(cols []int, wantX, wantP bool) bool {
 // rev, for cols (checked by the caller).
 func (e *Eval) newPlan(tapes []*tape, rev *revCode, cols []int, wantX, wantP bool) gradPlan {
 	pl := gradPlan{ok: true, wantX: wantX, wantP: wantP, rev: rev}
+	// where is the index in d the plan reads for the derivative of t
+	// found at a after the reverse sweep.
+	where := func(t *tape, a int32) int32 {
+		switch {
+		case t.nsteps > 0 || a == dZero:
+			return a
+		case a == t.rootAdj:
+			return dOne
+		}
+		return dZero
+	}
 	if wantX {
 		for i, t := range tapes {
 			for k, vr := range t.vars {
 				pl.xRow = append(pl.xRow, int32(i))
 				pl.xCol = append(pl.xCol, vr.index)
-				pl.xSrc = append(pl.xSrc, t.adj0+int32(k))
+				pl.xSrc = append(pl.xSrc, where(t, t.adj0+int32(k)))
+			}
+		}
+		// A dense index when the rows are small or mostly filled: one
+		// gather instead of clearing and scattering.
+		if n := len(tapes) * e.nx; n <= 16 || n <= 4*len(pl.xSrc) {
+			pl.xIdx = make([]int32, n)
+			for k, i := range pl.xRow {
+				pl.xIdx[int(i)*e.nx+int(pl.xCol[k])] = pl.xSrc[k]
 			}
 		}
 	}
 	if wantP {
 		pl.cols = slices.Clone(cols)
 		pl.pIdx = make([]int32, len(tapes)*len(cols))
-		adj := make([]int32, e.prog.np)
+		adj := make([]int32, e.np)
 		for i, t := range tapes {
 			for k, vr := range t.params {
-				adj[vr.index] = t.adj0 + int32(len(t.vars)+k)
+				adj[vr.index] = where(t, t.adj0+int32(len(t.vars)+k))
 			}
 			for k, c := range cols {
 				pl.pIdx[i*len(cols)+k] = adj[c]
@@ -388,30 +436,39 @@ func (e *Eval) newPlan(tapes []*tape, rev *revCode, cols []int, wantX, wantP boo
 			}
 		}
 	}
-	pl.dIdx = slices.Concat(pl.xSrc, pl.pIdx)
-	for _, a := range pl.dIdx {
+	for _, a := range slices.Concat(pl.xSrc, pl.pIdx) {
 		if a < 0 || int(a) >= len(e.d) {
 			panic("jacobian: derivative index outside the adjoints")
 		}
+		if a != dZero && a != dOne {
+			pl.dIdx = append(pl.dIdx, a)
+		}
 	}
+	pl.needRev = len(pl.dIdx) > 0 || len(rev.runs) > 0
 	return pl
 }
 
 // grad sets the rows of dx and dp (either may be nil) as gradRows does,
 // by the plan pl: it runs the group's forward program (unless w holds its
-// values already) and the plan's reverse steps and, when every value and
-// every derivative asked for is finite (the common case), copies the
-// derivatives from d. Otherwise gradRows runs instead, on the same
-// numbers, to fill the destinations as far as it goes and describe what is
-// not finite.
+// values already) and the plan's reverse steps (when it needs them) and,
+// when every value and every derivative asked for is finite (the common
+// case), copies the derivatives from d. Otherwise gradRows runs instead, on
+// the same numbers, to fill the destinations as far as it goes and
+// describe what is not finite.
 func (e *Eval) grad(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, out []int32, rev *revSweeps, pl *gradPlan) error {
 	e.run(code)
-	reverse(&rev.seeds, pl.rev, e.d, e.w)
+	if pl.needRev {
+		reverse(&rev.seeds, pl.rev, e.d, e.w)
+	}
 	if !gatherFinite(e.w, out) || !gatherFinite(e.d, pl.dIdx) {
 		return e.gradRows(dx, dp, tapes, code, rev, pl.rev, pl.cols)
 	}
 	if dx != nil {
-		scatterRows(dx, e.d, pl.xRow, pl.xCol, pl.xSrc)
+		if pl.xIdx != nil {
+			gatherRows(dx, e.d, pl.xIdx)
+		} else {
+			scatterRows(dx, e.d, pl.xRow, pl.xCol, pl.xSrc)
+		}
 	}
 	if dp != nil {
 		gatherRows(dp, e.d, pl.pIdx)
@@ -466,7 +523,7 @@ func (e *Eval) gradRows(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, rev 
 		}
 	}
 	forward(code, e.w, e.prog.base)
-	e.cur = code
+	e.cur = code.id
 	reverse(&rev.seeds, steps, e.d, e.w)
 	for i, t := range tapes {
 		if _, err := e.value(t); err != nil {

@@ -8,6 +8,8 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
+
+	"github.com/loopwright/loopwright/model"
 )
 
 // evalCall is one method of Eval as the tests of the fast paths call it:
@@ -186,5 +188,116 @@ func compareDense(t *testing.T, what string, got, want *mat.Dense, err, werr err
 	}
 	if i, ok := sameBits(got.RawMatrix().Data, want.RawMatrix().Data); !ok {
 		t.Errorf("%s: element %d is %v, general path %v", what, i, got.RawMatrix().Data[i], want.RawMatrix().Data[i])
+	}
+}
+
+// plainTapes is an invented system whose outputs, defines, checks and one
+// equation are a plain unknown, a plain parameter or a constant (some only
+// after compiling: x+0 and x*1 are x), beside ones that are not.
+func plainTapes() *model.System {
+	b := &builder{file: "plain.yaml", line: 1}
+	sys := &model.System{
+		Name:     "plain",
+		File:     "plain.yaml",
+		Unknowns: unknowns("x0", "x1"),
+		Params: []model.Symbol{
+			{Name: "p0", Base: "p0", Role: model.RoleParameter, Value: 2},
+			{Name: "p1", Base: "p1", Role: model.RoleParameter, Value: 3},
+			{Name: "p2", Base: "p2", Role: model.RoleParameter, Value: 4},
+		},
+	}
+	sys.Equations = []model.Equation{
+		{Name: "e0", Residual: b.sub(b.x(0), b.mul(b.p(0), b.x(1))), Pos: b.pos()},
+		{Name: "e1", Residual: b.mul(b.x(1), b.num(1)), Pos: b.pos()},
+	}
+	sys.Outputs = []model.Output{
+		{Name: "o0", Expr: b.x(1), Pos: b.pos()},
+		{Name: "o1", Expr: b.p(2), Pos: b.pos()},
+		{Name: "o2", Expr: b.num(3.5), Pos: b.pos()},
+		{Name: "o3", Expr: b.mul(b.x(0), b.x(1)), Pos: b.pos()},
+		{Name: "o4", Expr: b.add(b.x(0), b.num(0)), Pos: b.pos()},
+	}
+	sys.Defines = []model.Output{{Name: "d0", Expr: b.x(0), Pos: b.pos()}}
+	sys.Checks = []model.Check{{Name: "c0", Expr: b.p(1), Min: 0, Max: 1, Pos: b.pos()}}
+	return sys
+}
+
+// TestPlainTapes checks the derivatives of tapes that are a plain unknown,
+// parameter or constant, which the plans read from the one and zero slots
+// of d without running their (empty) sweeps, against the general path
+// (gradRows), bit for bit, errors included, at points holding -0, +0, NaN
+// and infinities; and that with only such outputs OutputGradients runs no
+// reverse steps.
+func TestPlainTapes(t *testing.T) {
+	sys := plainTapes()
+	prog := mustCompile(t, sys)
+	nx, np, neq, nout := prog.NumUnknowns(), prog.NumParams(), prog.NumEquations(), prog.NumOutputs()
+	vals := []float64{0.5, math.Copysign(0, -1), 0, math.NaN(), math.Inf(1), -1.25}
+	fast, slow := prog.NewEval(), prog.NewEval()
+	for _, cols := range [][]int{{2, 0, 2}, {1}, {0, 1, 2}} {
+		for trial := range 40 {
+			x, p := make([]float64, nx), make([]float64, np)
+			for i := range x {
+				x[i] = vals[(trial+i)%len(vals)]
+			}
+			for i := range p {
+				p[i] = vals[(trial/len(vals)+2*i)%len(vals)]
+			}
+			what := fmt.Sprint(cols, " x ", x, " p ", p)
+			got, want := nanDense(neq, len(cols)), nanDense(neq, len(cols))
+			err := fast.ParamJacobian(got, x, p, cols)
+			slow.check(x, p)
+			rev := prog.eqRev
+			rev.p = flatten(paramBatches(prog.eqs, rev.sweeps, cols, np))
+			werr := slow.gradRows(nil, want, prog.eqs, prog.eqFwd, &rev, &rev.p, cols)
+			compareDense(t, "ParamJacobian "+what, got, want, err, werr)
+
+			gx, gp, wx, wp := nanDense(nout, nx), nanDense(nout, len(cols)), nanDense(nout, nx), nanDense(nout, len(cols))
+			err = fast.OutputGradients(gx, gp, x, p, cols)
+			slow.check(x, p)
+			werr = slow.gradRows(wx, wp, prog.outs, prog.outFwd, &prog.outRev, &prog.outRev.all, cols)
+			compareDense(t, "OutputGradients dx "+what, gx, wx, err, werr)
+			compareDense(t, "OutputGradients dp "+what, gp, wp, err, werr)
+
+			gx, wx = nanDense(nout, nx), nanDense(nout, nx)
+			err = fast.OutputGradients(gx, nil, x, p, nil)
+			slow.check(x, p)
+			werr = slow.gradRows(wx, nil, prog.outs, prog.outFwd, &prog.outRev, &prog.outRev.x, nil)
+			compareDense(t, "OutputGradients dx only "+what, gx, wx, err, werr)
+
+			// The values are those of the symbols, to the bit.
+			y := nanSlice(nout)
+			if err := fast.Outputs(y, x, p); err == nil {
+				for i, w := range []float64{x[1], p[2], 3.5, x[0] * x[1], x[0]} {
+					if math.Float64bits(y[i]) != math.Float64bits(w) {
+						t.Errorf("Outputs %s: y[%d] = %v, want %v", what, i, y[i], w)
+					}
+				}
+			} else if finite(x[0]*x[1]) && finite(p[2]) {
+				t.Errorf("Outputs %s: %v", what, err)
+			}
+		}
+	}
+
+	// Only plain outputs (as the syrup blender's): no reverse steps, no
+	// derivative checked, unit rows.
+	sys.Outputs = sys.Outputs[:3]
+	prog = mustCompile(t, sys)
+	e := prog.NewEval()
+	dx, dp := nanDense(3, nx), nanDense(3, 2)
+	x, p := []float64{math.Copysign(0, -1), 7}, []float64{1, 2, 3}
+	if err := e.OutputGradients(dx, dp, x, p, []int{2, 0}); err != nil {
+		t.Fatal(err)
+	}
+	if e.og.needRev || len(e.og.dIdx) != 0 || e.og.xIdx == nil {
+		t.Errorf("plain outputs: plan needs reverse steps %v, checks %d derivatives, dense dx %v; want none, none, dense", e.og.needRev, len(e.og.dIdx), e.og.xIdx != nil)
+	}
+	wantX := []float64{0, 1, 0, 0, 0, 0}
+	wantP := []float64{0, 0, 1, 0, 0, 0}
+	if i, ok := sameBits(dx.RawMatrix().Data, wantX); !ok {
+		t.Errorf("plain outputs: dx element %d = %v, want %v", i, dx.RawMatrix().Data[i], wantX[i])
+	}
+	if i, ok := sameBits(dp.RawMatrix().Data, wantP); !ok {
+		t.Errorf("plain outputs: dp element %d = %v, want %v", i, dp.RawMatrix().Data[i], wantP[i])
 	}
 }

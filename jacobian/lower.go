@@ -73,7 +73,7 @@ func newLowering(nx, np int, pool *constPool) *lowering {
 		pool:  pool,
 		base:  int32(nx + np + len(pool.vals)),
 		cse:   map[instr]int32{},
-		dnext: dSink + 1,
+		dnext: dOne + 1,
 	}
 }
 
@@ -203,6 +203,7 @@ func (l *lowering) reverse(t *tape) {
 			t.zero = append(t.zero, t.aslot[k]) // loaded (or computed) but not used
 		}
 	}
+	t.nsteps = len(sw.code)
 	l.sweeps = append(l.sweeps, sw)
 }
 

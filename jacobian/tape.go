@@ -73,10 +73,10 @@ type instr struct {
 // arithmetic op of its source form. Values come from w; adjoints live in a
 // second array d, laid out as
 //
-//	d = [ zero | sink | one region per tape of the group ]
+//	d = [ zero | sink | one | one region per tape of the group ]
 //
-// where zero always holds 0 and sink receives the adjoints of constants,
-// which nobody reads. A tape's region holds the adjoints of the unknowns it
+// where zero always holds 0, sink receives the adjoints of constants,
+// which nobody reads, and one always holds 1. A tape's region holds the adjoints of the unknowns it
 // loads (in the order of tape.vars), of its parameters (tape.params) and of
 // its temporaries, so the sweeps of different tapes never touch the same
 // number and may run in any order, interleaved.
@@ -107,10 +107,13 @@ type batch struct {
 	dlen, wlen int
 }
 
-// Positions of the zero and sink slots in d.
+// Positions of the zero, sink and one slots in d. The one slot always
+// holds 1: a plan reads there the derivative of a tape with respect to the
+// symbol that is its result (gradPlan).
 const (
 	dZero = 0
 	dSink = 1
+	dOne  = 2
 )
 
 // varRef ties a load instruction to the symbol it loads.
@@ -146,6 +149,7 @@ type tape struct {
 	out     int32   // index in w of the result
 	adj0    int32   // start of the tape's region of d: unknowns, then parameters
 	rootAdj int32   // index in d of the result's adjoint
+	nsteps  int     // steps of its reverse sweep (0: the result is a load or a constant)
 	zero    []int32 // adjoints in d to clear before the sweep: those no step reaches
 	slot    []int32 // index in w of the value of each source op
 	aslot   []int32 // index in d of the adjoint of each source op up to root
@@ -158,6 +162,7 @@ type tape struct {
 type fwdProgram struct {
 	code []instr
 	runs []run
+	id   int // which of its Program's groups it computes, from 1 (Eval.cur)
 }
 
 // run is a stretch of n consecutive instructions with the same op.
@@ -280,20 +285,65 @@ type revCode struct {
 	dlen, wlen int
 }
 
-// flatten lays batches end to end as a revCode.
+// flatten lays the steps of batches out as a revCode: batch after batch,
+// or, when that makes fewer runs, interleaved (mergeSteps).
 func flatten(batches []batch) revCode {
+	rc := lay(batches, false)
+	if len(batches) > 1 && len(batches) <= maxMerged {
+		if m := lay(batches, true); len(m.runs) < len(rc.runs) {
+			rc = m
+		}
+	}
+	return rc
+}
+
+// maxMerged is the most batches flatten tries to interleave (the search
+// looks at every batch for every step).
+const maxMerged = 64
+
+// lay lays the steps of batches end to end, batch after batch and step
+// after step (the lanes of step s of a batch being consecutive already),
+// joining consecutive steps of the same op into one run. When merge is
+// set, the batches are interleaved instead: each round takes the op of the
+// next step of the first batch not done, and the next step of every batch
+// whose next step is that op. Either way each tape's steps keep their
+// order, and the steps of different tapes touch different adjoints (their
+// regions of d; the zero slot is only read, the sink only written), so
+// the order across tapes changes no number.
+func lay(batches []batch, merge bool) revCode {
 	var rc revCode
+	add := func(code opcode, lanes []rlane) {
+		if n := len(rc.runs); n > 0 && rc.runs[n-1].code == code {
+			rc.runs[n-1].n += int32(len(lanes))
+		} else {
+			rc.runs = append(rc.runs, run{code: code, n: int32(len(lanes))})
+		}
+		rc.lanes = append(rc.lanes, lanes...)
+	}
+	next := make([]int, len(batches)) // the next step of each batch
 	for b := range batches {
 		bt := &batches[b]
 		rc.dlen, rc.wlen = max(rc.dlen, bt.dlen), max(rc.wlen, bt.wlen)
-		for _, code := range bt.code {
-			if n := len(rc.runs); n > 0 && rc.runs[n-1].code == code {
-				rc.runs[n-1].n += int32(bt.k)
-			} else {
-				rc.runs = append(rc.runs, run{code: code, n: int32(bt.k)})
+		if merge {
+			continue
+		}
+		for s, code := range bt.code {
+			add(code, bt.lanes[s*bt.k:(s+1)*bt.k])
+		}
+	}
+	for first := 0; merge && first < len(batches); {
+		if next[first] == len(batches[first].code) {
+			first++
+			continue
+		}
+		code := batches[first].code[next[first]]
+		for b := first; b < len(batches); b++ {
+			bt := &batches[b]
+			if s := next[b]; s < len(bt.code) && bt.code[s] == code {
+				add(code, bt.lanes[s*bt.k:(s+1)*bt.k])
+				next[b]++
 			}
 		}
-		rc.lanes = append(rc.lanes, bt.lanes...)
 	}
 	n := 0
 	for _, r := range rc.runs {
@@ -324,16 +374,19 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 		panic("jacobian: work buffers too short for the program")
 	}
 	dp, wp := unsafe.Pointer(unsafe.SliceData(d)), unsafe.Pointer(unsafe.SliceData(w))
-	lp := unsafe.Pointer(unsafe.SliceData(rc.lanes)) // the lanes of the run
+	// The lanes of the run are lanes[lo:hi]: the runs cover rc.lanes
+	// exactly (flatten), so the lanes are read without further checks.
+	lp := unsafe.Pointer(unsafe.SliceData(rc.lanes))
+	var lo uintptr
 	for _, r := range rc.runs {
-		n := uintptr(r.n)
-		lanes := unsafe.Slice((*rlane)(lp), n)
-		lp = unsafe.Add(lp, n*unsafe.Sizeof(rlane{}))
+		hi := lo + uintptr(uint32(r.n))
+		j0 := lo
+		lo = hi
 		// One step of the reverse sweep, an op of code r.code, on each lane.
 		switch code := r.code; code {
 		case opAdd:
-			for j := range lanes {
-				o := &lanes[j]
+			for j := j0; j < hi; j++ {
+				o := laneAt(lp, j)
 				if g := *at(dp, o.tk); g != 0 {
 					*at(dp, o.ta) = *at(dp, o.sa) + g
 					*at(dp, o.tb) = *at(dp, o.sb) + g
@@ -342,8 +395,8 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 				}
 			}
 		case opSub:
-			for j := range lanes {
-				o := &lanes[j]
+			for j := j0; j < hi; j++ {
+				o := laneAt(lp, j)
 				if g := *at(dp, o.tk); g != 0 {
 					*at(dp, o.ta) = *at(dp, o.sa) + g
 					*at(dp, o.tb) = *at(dp, o.sb) - g
@@ -352,8 +405,8 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 				}
 			}
 		case opMul:
-			for j := range lanes {
-				o := &lanes[j]
+			for j := j0; j < hi; j++ {
+				o := laneAt(lp, j)
 				if g := *at(dp, o.tk); g != 0 {
 					*at(dp, o.ta) = *at(dp, o.sa) + g**at(wp, o.vb)
 					*at(dp, o.tb) = *at(dp, o.sb) + g**at(wp, o.va)
@@ -362,8 +415,8 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 				}
 			}
 		case opDiv:
-			for j := range lanes {
-				o := &lanes[j]
+			for j := j0; j < hi; j++ {
+				o := laneAt(lp, j)
 				if g := *at(dp, o.tk); g != 0 {
 					q := g / *at(wp, o.vb)
 					*at(dp, o.ta) = *at(dp, o.sa) + q
@@ -373,8 +426,8 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 				}
 			}
 		case opNeg:
-			for j := range lanes {
-				o := &lanes[j]
+			for j := j0; j < hi; j++ {
+				o := laneAt(lp, j)
 				if g := *at(dp, o.tk); g != 0 {
 					*at(dp, o.ta) = *at(dp, o.sa) - g
 				} else {
@@ -382,8 +435,8 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 				}
 			}
 		case opChain:
-			for j := range lanes {
-				o := &lanes[j]
+			for j := j0; j < hi; j++ {
+				o := laneAt(lp, j)
 				if g := *at(dp, o.tk); g != 0 {
 					*at(dp, o.ta) = *at(dp, o.sa) + g**at(wp, o.vb)
 				} else {
@@ -391,8 +444,8 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 				}
 			}
 		default:
-			for j := range lanes {
-				o := &lanes[j]
+			for j := j0; j < hi; j++ {
+				o := laneAt(lp, j)
 				if g := *at(dp, o.tk); g != 0 {
 					reverseOther(code, o, g, dp, wp)
 				} else {
@@ -402,6 +455,12 @@ func reverse(s *seeds, rc *revCode, d, w []float64) {
 		}
 
 	}
+}
+
+// laneAt returns lane j of the array at p. Callers have checked that j is
+// in range.
+func laneAt(p unsafe.Pointer, j uintptr) *rlane {
+	return (*rlane)(unsafe.Add(p, j*unsafe.Sizeof(rlane{})))
 }
 
 // at returns the element i of the float64 array at p. Callers have checked
