@@ -91,7 +91,7 @@ func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 		return nil, false, nil
 	}
 	// inverseDet2's LU and inverse.
-	kinv, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
+	b00, b01, b10, b11, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
 	if !ok {
 		return nil, false, nil
 	}
@@ -135,12 +135,11 @@ func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 
 	// matrix2's arithmetic: det K, K⁻¹, Λ = K ∘ (K⁻¹)ᵀ, zeroRoundoff and
 	// the sensitivities.
-	b00, b01, b10, b11 := kinv[0], kinv[1], kinv[2], kinv[3]
 	det := float64(a00 * u11) // det2's arithmetic
 	if swap {
 		det = -det
 	}
-	*v.kinv = kinv
+	*v.kinv = [4]float64{b00, b01, b10, b11}
 	l00, l01, l10, l11 := float64(k00*b00), float64(k01*b10), float64(k10*b01), float64(k11*b11)
 	lam00, lam01 := l00, l01 // before zeroRoundoff
 	gamma := minCond2From(l00, l01)
@@ -325,16 +324,15 @@ func (z *Analyzer) matrix2(k00, k01, k10, k11 float64) (ok bool, err error) {
 		return false, nil
 	}
 	// inverseDet2's LU and inverse.
-	b, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
+	b00, b01, b10, b11, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
 	if !ok {
 		return false, nil
 	}
-	b00, b01, b10, b11 := b[0], b[1], b[2], b[3]
 	det := float64(a00 * u11) // det2's arithmetic
 	if swap {
 		det = -det
 	}
-	*v.kinv = b
+	*v.kinv = [4]float64{b00, b01, b10, b11}
 
 	// Λ = K ∘ (K⁻¹)ᵀ, then zeroRoundoff and the sensitivities.
 	l00, l01, l10, l11 := float64(k00*b00), float64(k01*b10), float64(k10*b01), float64(k11*b11)
