@@ -240,25 +240,29 @@ func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 	if rej0 == rej1 {
 		second = score0 > score1 || (score1 != score1 && score0 == score0)
 	}
-	t0 := 0 // the rank of the pairing (0, 1)
+	p0, p1 := &b.res[0], &b.res[1] // the results of (0, 1) and (1, 0)
 	if second {
-		t0 = 1
+		p0, p1 = p1, p0
+		b.pairs = [2][2]int{{1, 0}, {0, 1}}
+		b.lambdas = [2][2]float64{{l01, l10}, {l00, l11}}
+	} else {
+		b.pairs = [2][2]int{{0, 1}, {1, 0}}
+		b.lambdas = [2][2]float64{{l00, l11}, {l01, l10}}
 	}
-	t1 := 1 - t0
-	b.pairs[t0], b.pairs[t1] = [2]int{0, 1}, [2]int{1, 0}
-	b.lambdas[t0], b.lambdas[t1] = [2]float64{l00, l11}, [2]float64{l01, l10}
-	p0, p1 := &b.res[t0], &b.res[t1]
 	p0.Niederlinski, p0.RGANumber, p0.Verdict, p0.Score = ni0, rga0, ver0, score0
 	p1.Niederlinski, p1.RGANumber, p1.Verdict, p1.Score = ni1, rga1, ver1, score1
-	for t := range b.res {
-		// A brief result with its pairs and λ in b's arrays, storing only
-		// what is not in place already.
-		r := &b.res[t]
-		setSlice2((*[]int)(&r.Pairs), &b.pairs[t])
-		setSlice2(&r.Lambdas, &b.lambdas[t])
-		if r.Label != "" || r.Reasons != nil || r.Integrity != nil || r.RDG != nil {
-			r.Label, r.Reasons, r.Integrity, r.RDG = "", nil, nil, nil
-		}
+	// Brief results with their pairs and λ in b's arrays, storing only
+	// what is not in place already.
+	r0, r1 := &b.res[0], &b.res[1]
+	setSlice2((*[]int)(&r0.Pairs), &b.pairs[0])
+	setSlice2((*[]int)(&r1.Pairs), &b.pairs[1])
+	setSlice2(&r0.Lambdas, &b.lambdas[0])
+	setSlice2(&r1.Lambdas, &b.lambdas[1])
+	if r0.Label != "" || r0.Reasons != nil || r0.Integrity != nil || r0.RDG != nil {
+		r0.Label, r0.Reasons, r0.Integrity, r0.RDG = "", nil, nil, nil
+	}
+	if r1.Label != "" || r1.Reasons != nil || r1.Integrity != nil || r1.RDG != nil {
+		r1.Label, r1.Reasons, r1.Integrity, r1.RDG = "", nil, nil, nil
 	}
 	rejected := 0
 	if rej0 {
