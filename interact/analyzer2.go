@@ -60,18 +60,18 @@ import (
 // again, when the gain set needs that route (gains out of in1Range's
 // range, K ill-conditioned or singular, or K not 2x2).
 func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
-	if r, c := g.K.Dims(); r != 2 || c != 2 {
+	km := g.K
+	if r, c := km.Dims(); r != 2 || c != 2 {
 		return nil, false, nil // the general route panics
 	}
+	row0, row1 := km.RawRowView(0), km.RawRowView(1)
+	k00, k01, k10, k11 := row0[0], row0[1], row1[0], row1[1]
 	if !z.shaped2 {
 		z.shape2()
 	}
 	v := &z.v2
-	var k00, k01, k10, k11 float64
 	if z.unscaled {
 		// Every factor is 1: copy K, as scaledInto does.
-		r0, r1 := g.K.RawRowView(0), g.K.RawRowView(1)
-		k00, k01, k10, k11 = r0[0], r0[1], r1[0], r1[1]
 		*v.k = [4]float64{k00, k01, k10, k11}
 	} else {
 		fy, err := g.scaledInto(z.opts.Scaling, &z.k, &z.kd, z.fy)
