@@ -30,7 +30,8 @@ import (
 //     relative gains (see minCond2From) instead of the singular values of
 //     the balanced matrix, where the two agree to about 1e-14.
 //   - a brief analysis of every pairing ranks the two pairings itself
-//     (pairings2), with screener.detail's arithmetic.
+//     (pairings2, and brief2 for a sweep's gain sets), with
+//     screener.detail's arithmetic.
 //   - ∞-norm condition numbers above 1e10, exactly singular K and entries
 //     out of in2Range's range take the general path as before, so the
 //     singularity decisions and their messages are the general path's.
@@ -59,6 +60,11 @@ import (
 // done is false, and nothing is set that the general route does not set
 // again, when the gain set needs that route (gains out of in1Range's
 // range, K ill-conditioned or singular, or K not 2x2).
+//
+// matrix2 and pairings2, which the general route uses, and brief2 repeat
+// the same arithmetic: a change to one belongs in the other.
+// TestBrief2SameAsGeneral holds the two routes to the same bits, and
+// TestAnalyzerBits2Golden both to the recorded ones.
 func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 	km := g.K
 	if r, c := km.Dims(); r != 2 || c != 2 {
