@@ -88,7 +88,7 @@ func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 		k := v.k
 		k00, k01, k10, k11 = k[0], k[1], k[2], k[3]
 	}
-	if !(in1Range(k00) && in1Range(k01) && in1Range(k10) && in1Range(k11)) { // in2Range
+	if !in4Range(k00, k01, k10, k11) {
 		return nil, false, nil
 	}
 	// The SVD, as svdInto gives it, first: its chain of divisions and
@@ -516,6 +516,24 @@ func in1Range(v float64) bool {
 	const lo, hi = small2Bits << 1, big2Bits << 1
 	b := math.Float64bits(v) << 1  // |v| without its sign
 	return b == 0 || b-lo <= hi-lo // b < lo wraps around to above hi-lo
+}
+
+// in4Range is in1Range of a, b, c and d all together (in2Range of them),
+// one comparison for the four: the bits of |v| less small2's, as in1Range
+// compares them, with 0 for a zero, and the largest of those in range.
+func in4Range(a, b, c, d float64) bool {
+	return max(rangeKey(a), rangeKey(b), rangeKey(c), rangeKey(d)) <= (big2Bits-small2Bits)<<1
+}
+
+// rangeKey is 0 for v = ±0 and otherwise the bits of |v| (shifted left
+// by one) less small2's: at most (big2Bits-small2Bits)<<1 exactly when v is
+// within in1Range's range.
+func rangeKey(v float64) uint64 {
+	b := math.Float64bits(v) << 1
+	if b == 0 {
+		return 0
+	}
+	return b - small2Bits<<1
 }
 
 // small2Bits and big2Bits are the bits of small2 = 2⁻³⁰⁰ and 1/small2 =

@@ -222,7 +222,8 @@ func TestBrief2SameAsGeneral(t *testing.T) {
 	}
 }
 
-// in1Range's comparison of bits is the comparison of numbers it replaces.
+// in1Range's and in4Range's comparisons of bits are the comparisons of
+// numbers they replace.
 func TestIn1RangeBits(t *testing.T) {
 	if small2Bits != math.Float64bits(small2) || big2Bits != math.Float64bits(1/small2) {
 		t.Fatalf("small2Bits %x, big2Bits %x: want %x, %x", small2Bits, big2Bits, math.Float64bits(small2), math.Float64bits(1/small2))
@@ -240,6 +241,12 @@ func TestIn1RangeBits(t *testing.T) {
 		}
 		if in1Range(v) != in2Range(v) {
 			t.Errorf("in1Range(%v) disagrees with in2Range", v)
+		}
+		w := vals[rnd.IntN(len(vals))]
+		for _, q := range [][4]float64{{v, 1, 1, 1}, {1, v, 1, 1}, {1, 1, v, 1}, {1, 1, 1, v}, {v, w, 0, 1}, {w, 1, v, -2}} {
+			if in4Range(q[0], q[1], q[2], q[3]) != in2Range(q[:]...) {
+				t.Errorf("in4Range%v disagrees with in2Range", q)
+			}
 		}
 	}
 }
