@@ -20,7 +20,7 @@ import (
 // gives the same numbers without allocating for each one.
 func Analyze(g *GainSet, opts *Options) (*Analysis, error) {
 	z := NewAnalyzer(opts)
-	z.fresh = true
+	z.fresh, z.route2 = true, false
 	return z.Analyze(g)
 }
 
@@ -58,13 +58,16 @@ type Analyzer struct {
 	sc  screener
 	per Pairing
 
-	cands   []candidate
-	store   []int
-	res     []PairingResult
-	slots   []resultSlot
-	fresh   bool // the Analysis will be the caller's: copy the signal lists
-	shaped2 bool // the storage matrix2 fills is 2x2 (see shape2)
-	v2      view2
+	cands    []candidate
+	store    []int
+	res      []PairingResult
+	slots    []resultSlot
+	fresh    bool // the Analysis will be the caller's: copy the signal lists
+	shaped2  bool // the storage matrix2 fills is 2x2 (see shape2)
+	v2       view2
+	route2   bool // a 2x2 gain set without disturbances takes brief2
+	unscaled bool // opts.Scaling is ScaleNone
+	b2       brief2Store
 }
 
 // resultSlot is the storage of the k-th detailed pairing.
@@ -83,6 +86,8 @@ func NewAnalyzer(opts *Options) *Analyzer {
 		z.opts = *opts
 	}
 	z.th = z.opts.Thresholds.withDefaults()
+	z.route2 = z.opts.Brief && z.opts.MaxPairings != 1
+	z.unscaled = z.opts.Scaling == ScaleNone
 	return z
 }
 
@@ -91,7 +96,7 @@ func NewAnalyzer(opts *Options) *Analyzer {
 func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 	if len(g.Outputs) != 2 || len(g.Inputs) != 2 {
 		z.shaped2 = false // K may change shape (see view2)
-	} else if g.Kd == nil && z.opts.Brief && z.opts.MaxPairings != 1 && !z.fresh {
+	} else if z.route2 && g.Kd == nil {
 		if a, done, err := z.brief2(g); done {
 			return a, err
 		}

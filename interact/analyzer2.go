@@ -30,7 +30,8 @@ import (
 //     relative gains (see minCond2From) instead of the singular values of
 //     the balanced matrix, where the two agree to about 1e-14.
 //   - a brief analysis of every pairing ranks the two pairings itself
-//     (pairings2), with screener.detail's arithmetic.
+//     (pairings2, and brief2 for a sweep's gain sets), with
+//     screener.detail's arithmetic.
 //   - ∞-norm condition numbers above 1e10, exactly singular K and entries
 //     out of in2Range's range take the general path as before, so the
 //     singularity decisions and their messages are the general path's.
@@ -38,47 +39,81 @@ import (
 // brief2 is Analyze for what an envelope sweep asks at every point: a
 // square 2x2 gain set without disturbances, analysed briefly with every
 // pairing (Options.Brief, MaxPairings not 1), by an Analyzer whose results
-// are its own (not the package function Analyze). It computes what the
-// general route computes, with the same operations (matrix2, pairings2),
-// but stores a pointer or slice in the results only where it is not
-// already there: analysing one point after another, the Analyzer finds
-// them in place, and a store costs more than the comparison, with a
-// write barrier while the garbage collector runs. done is false, and
-// nothing is set that the general route does not set again, when the gain
-// set needs that route (gains not finite or out of range, K
-// ill-conditioned or singular).
-func (z *Analyzer) brief2(g *GainSet) (a *Analysis, done bool, err error) {
-	if r, c := g.K.Dims(); r != 2 || c != 2 {
+// are its own (not the package function Analyze; z.route2). It computes
+// what the general route computes (matrix2, then pairings2), with the same
+// operations in the same order, written out in one function so that
+// nothing is checked, loaded or stored twice:
+//
+//   - the options it depends on are decided once, in NewAnalyzer (route2,
+//     unscaled);
+//   - its results live in z.b2, which the general route never touches: the
+//     two ranked pairings, their pairs and paired λ, and the index lists.
+//     Their places are fixed, so checking that a result still points to
+//     them needs no loads of the Analyzer's slices, and the ranking writes
+//     each pairing's numbers into its rank's storage instead of moving
+//     slices between the results;
+//   - a pointer or slice is stored only where it is not already in place:
+//     analysing one point after another it is in place, and a store costs
+//     more than the comparison, with a write barrier while the garbage
+//     collector runs.
+//
+// done is false, and nothing is set that the general route does not set
+// again, when the gain set needs that route (gains out of in1Range's
+// range, K ill-conditioned or singular, or K not 2x2).
+//
+// matrix2 and pairings2, which the general route uses, and brief2 repeat
+// the same arithmetic: a change to one belongs in the other.
+// TestBrief2SameAsGeneral holds the two routes to the same bits, and
+// TestAnalyzerBits2Golden both to the recorded ones.
+func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
+	km := g.K
+	if r, c := km.Dims(); r != 2 || c != 2 {
 		return nil, false, nil // the general route panics
 	}
+	row0, row1 := km.RawRowView(0), km.RawRowView(1)
+	k00, k01, k10, k11 := row0[0], row0[1], row1[0], row1[1]
 	if !z.shaped2 {
 		z.shape2()
 	}
-	k := z.v2.k
-	if z.opts.Scaling == ScaleNone {
+	v := &z.v2
+	if z.unscaled {
 		// Every factor is 1: copy K, as scaledInto does.
-		*k = elems2(g.K)
+		*v.k = [4]float64{k00, k01, k10, k11}
 	} else {
 		fy, err := g.scaledInto(z.opts.Scaling, &z.k, &z.kd, z.fy)
 		setSlice(&z.fy, fy)
 		if err != nil {
 			return nil, true, err
 		}
+		k := v.k
+		k00, k01, k10, k11 = k[0], k[1], k[2], k[3]
 	}
-	k00, k01, k10, k11 := k[0], k[1], k[2], k[3]
-	a = &z.a
+	if !in4Range(k00, k01, k10, k11) {
+		return nil, false, nil
+	}
+	// The SVD, as svdInto gives it, first: its chain of divisions and
+	// square roots is the longest, and the rest can proceed meanwhile.
+	if !svd2Of(v.sv, v.u, v.v, k00, k01, k10, k11) {
+		return nil, false, nil
+	}
+	// inverseDet2's LU and inverse.
+	b00, b01, b10, b11, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
+	if !ok {
+		return nil, false, nil
+	}
+
+	// The analysis's lists and matrices, where the general route puts
+	// them (matrix2 below sets the rest).
+	a, b := &z.a, &z.b2
 	setString(&a.Source, g.Source)
 	a.Scaling = z.opts.Scaling
 	setString(&a.Caution, Caution)
 	setSlice(&a.Outputs, g.Outputs)
 	setSlice(&a.Inputs, g.Inputs)
 	setSlice(&a.Disturbances, g.Disturbances)
-	if len(z.rows) != 2 || len(z.cols) != 2 {
-		z.rows, z.cols = resizeInts(z.rows, 2), resizeInts(z.cols, 2)
-	}
-	*(*[2]int)(z.rows), *(*[2]int)(z.cols) = [2]int{0, 1}, [2]int{0, 1}
-	setSlice(&a.OutputIndex, z.rows)
-	setSlice(&a.InputIndex, z.cols)
+	b.rows, b.cols = [2]int{0, 1}, [2]int{0, 1}
+	setSlice2(&a.OutputIndex, &b.rows)
+	setSlice2(&a.InputIndex, &b.cols)
 	if a.K != &z.k {
 		a.K = &z.k
 	}
@@ -94,15 +129,190 @@ func (z *Analyzer) brief2(g *GainSet) (a *Analysis, done bool, err error) {
 	if a.Notes != nil {
 		a.Notes = nil
 	}
-	ok, err := z.matrix2(k00, k01, k10, k11)
-	if !ok {
-		return nil, false, nil
+	if a.RGA != &z.rga {
+		a.RGA = &z.rga
 	}
-	if err != nil {
-		return nil, true, err
+	if a.Sensitivity != &z.sens {
+		a.Sensitivity = &z.sens
 	}
-	z.pairings2(k00, k01, k10, k11)
+	if a.SVD != &z.svd {
+		a.SVD = &z.svd
+	}
+
+	// matrix2's arithmetic: det K, K⁻¹, Λ = K ∘ (K⁻¹)ᵀ, zeroRoundoff and
+	// the sensitivities.
+	det := float64(a00 * u11) // det2's arithmetic
+	if swap {
+		det = -det
+	}
+	*v.kinv = [4]float64{b00, b01, b10, b11}
+	l00, l01, l10, l11 := float64(k00*b00), float64(k01*b10), float64(k10*b01), float64(k11*b11)
+	lam00, lam01 := l00, l01 // before zeroRoundoff
+	gamma := minCond2From(l00, l01)
+	big := maxPos(maxPos(1, math.Abs(l00)), maxPos(math.Abs(l01), maxPos(math.Abs(l10), math.Abs(l11))))
+	if tol := 1e-10 * big; true {
+		if math.Abs(l00) < tol {
+			l00 = 0
+		}
+		if math.Abs(l01) < tol {
+			l01 = 0
+		}
+		if math.Abs(l10) < tol {
+			l10 = 0
+		}
+		if math.Abs(l11) < tol {
+			l11 = 0
+		}
+	}
+	*v.rga = [4]float64{l00, l01, l10, l11}
+	*v.sens = [4]float64{1 / l00, 1 / l01, 1 / l10, 1 / l11}
+	a.Det = det
+	r := &z.svd
+	s0, s1 := v.sv[0], v.sv[1]
+	r.Cond = s0 / s1
+	if s1 == 0 || r.Cond > 1/0x1p-52 { // as minCondInto; not reached below cond 1e10
+		return nil, true, &SingularError{What: "K", Cond: r.Cond}
+	}
+	m := lam00
+	if lam01 < m {
+		m = lam01
+	}
+	if math.Abs(m) >= 1e-3 && gamma <= 64 {
+		ak, bk, ck, dk := math.Abs(k00), math.Abs(k01), math.Abs(k10), math.Abs(k11)
+		s := math.Sqrt(ak * ck / (bk * dk))
+		q := ak / (s * dk)
+		gq, gs := math.Sqrt(q), math.Sqrt(s)
+		*v.dl = [2]float64{1 / gq, q / gq}
+		*v.dr = [2]float64{1 / gs, s / gs}
+	} else if gamma, ok = minCond2(&z.k, z.dl, z.dr); !ok {
+		var err error
+		if gamma, err = minCondInto(&z.k, r, &z.dl, &z.dr, &z.mw); err != nil {
+			return nil, true, err
+		}
+	}
+	a.MinCond = gamma
+	setSlice2(&a.Dl, v.dl)
+	setSlice2(&a.Dr, v.dr)
+	noted := gamma > z.th.CondHigh
+	if noted {
+		z.noteCondition()
+	}
+
+	// pairings2's arithmetic: both pairings, (0, 1) and (1, 0), judged as
+	// screener.detail judges them (judge2's operations in its order) and
+	// ranked as compareResults ranks them. A paired gain of 0 needs no test
+	// of its own: its λ, k·(K⁻¹)_ji with K⁻¹ finite, is ±0, which the test
+	// λ <= 0 rejects.
+	lo, hi := z.th.LambdaLow, z.th.LambdaHigh
+	rej0, rej1, cau0, cau1 := false, false, 0, 0
+	if l00 <= 0 {
+		rej0 = true
+	} else if l00 < lo || l00 > hi {
+		cau0++
+	}
+	if l11 <= 0 {
+		rej0 = true
+	} else if l11 < lo || l11 > hi {
+		cau0++
+	}
+	if l01 <= 0 {
+		rej1 = true
+	} else if l01 < lo || l01 > hi {
+		cau1++
+	}
+	if l10 <= 0 {
+		rej1 = true
+	} else if l10 < lo || l10 > hi {
+		cau1++
+	}
+	sumAbs := math.Abs(l00) + math.Abs(l01) + math.Abs(l10) + math.Abs(l11) // screener.init's sum from +0: +0 + |λ| is |λ|
+	rga0 := sumAbs + (math.Abs(l00-1) - math.Abs(l00))
+	rga0 += math.Abs(l11-1) - math.Abs(l11)
+	rga1 := sumAbs + (math.Abs(l01-1) - math.Abs(l01))
+	rga1 += math.Abs(l10-1) - math.Abs(l10)
+	score0, score1 := rga0+2*float64(cau0), rga1+2*float64(cau1)
+	ni0, ni1 := math.NaN(), math.NaN()
+	if p := k00 * k11; p != 0 {
+		ni0 = det / p
+	}
+	if p := k01 * k10; p != 0 {
+		ni1 = -det / p
+	}
+	ver0 := verdict2(rej0, cau0 > 0 || noted, l00, l11, &z.th)
+	ver1 := verdict2(rej1, cau1 > 0 || noted, l01, l10, &z.th)
+	// compareResults: rejected last, then by score (cmp.Compare), then by
+	// pairing, and (0, 1) comes before (1, 0).
+	second := rej0 // the pairing (0, 1) ranks second
+	if rej0 == rej1 {
+		second = score0 > score1 || (score1 != score1 && score0 == score0)
+	}
+	p0, p1 := &b.res[0], &b.res[1] // the results of (0, 1) and (1, 0)
+	if second {
+		p0, p1 = p1, p0
+		b.pairs = [2][2]int{{1, 0}, {0, 1}}
+		b.lambdas = [2][2]float64{{l01, l10}, {l00, l11}}
+	} else {
+		b.pairs = [2][2]int{{0, 1}, {1, 0}}
+		b.lambdas = [2][2]float64{{l00, l11}, {l01, l10}}
+	}
+	p0.Niederlinski, p0.RGANumber, p0.Verdict, p0.Score = ni0, rga0, ver0, score0
+	p1.Niederlinski, p1.RGANumber, p1.Verdict, p1.Score = ni1, rga1, ver1, score1
+	// Brief results with their pairs and λ in b's arrays, storing only
+	// what is not in place already.
+	r0, r1 := &b.res[0], &b.res[1]
+	setSlice2((*[]int)(&r0.Pairs), &b.pairs[0])
+	setSlice2((*[]int)(&r1.Pairs), &b.pairs[1])
+	setSlice2(&r0.Lambdas, &b.lambdas[0])
+	setSlice2(&r1.Lambdas, &b.lambdas[1])
+	if r0.Label != "" || r0.Reasons != nil || r0.Integrity != nil || r0.RDG != nil {
+		r0.Label, r0.Reasons, r0.Integrity, r0.RDG = "", nil, nil, nil
+	}
+	if r1.Label != "" || r1.Reasons != nil || r1.Integrity != nil || r1.RDG != nil {
+		r1.Label, r1.Reasons, r1.Integrity, r1.RDG = "", nil, nil, nil
+	}
+	rejected := 0
+	if rej0 {
+		rejected++
+	}
+	if rej1 {
+		rejected++
+	}
+	a.Screened, a.Rejected = 2, rejected
+	setSlice2(&a.Pairings, &b.res)
 	return a, true, nil
+}
+
+// brief2Store is the storage of brief2's results, which the general route
+// never touches: the two pairings in ranked order with their pairs and
+// paired λ, and the index lists {0, 1}.
+type brief2Store struct {
+	res        [2]PairingResult
+	pairs      [2][2]int
+	lambdas    [2][2]float64
+	rows, cols [2]int
+}
+
+// setSlice2 makes *dst the whole array *arr unless it is already: the
+// same first element and length. A slice of the array with that length
+// has its capacity too, since the array is 2 long.
+func setSlice2[T any](dst *[]T, arr *[2]T) {
+	if unsafe.SliceData(*dst) != &arr[0] || len(*dst) != 2 {
+		*dst = arr[:]
+	}
+}
+
+// verdict2 is screener.detail's verdict of a 2x2 pairing with paired
+// relative gains la and lb.
+func verdict2(rejected, cautioned bool, la, lb float64, th *Thresholds) Verdict {
+	switch {
+	case rejected:
+		return Rejected
+	case cautioned:
+		return Cautioned
+	case la >= th.GoodLow && la <= th.GoodHigh && lb >= th.GoodLow && lb <= th.GoodHigh:
+		return Recommended
+	}
+	return Acceptable
 }
 
 // matrix2 fills the analysis's RGA, Sensitivity, Det, SVD, MinCond, Dl, Dr,
@@ -124,16 +334,15 @@ func (z *Analyzer) matrix2(k00, k01, k10, k11 float64) (ok bool, err error) {
 		return false, nil
 	}
 	// inverseDet2's LU and inverse.
-	b, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
+	b00, b01, b10, b11, a00, u11, swap, _, ok := lu2Inverse(k00, k01, k10, k11)
 	if !ok {
 		return false, nil
 	}
-	b00, b01, b10, b11 := b[0], b[1], b[2], b[3]
 	det := float64(a00 * u11) // det2's arithmetic
 	if swap {
 		det = -det
 	}
-	*v.kinv = b
+	*v.kinv = [4]float64{b00, b01, b10, b11}
 
 	// Λ = K ∘ (K⁻¹)ᵀ, then zeroRoundoff and the sensitivities.
 	l00, l01, l10, l11 := float64(k00*b00), float64(k01*b10), float64(k10*b01), float64(k11*b11)
@@ -235,13 +444,6 @@ type view2 struct {
 	sv, dl, dr               *[2]float64
 }
 
-// elems2 returns the elements of the 2x2 k, row by row.
-func elems2(k *mat.Dense) [4]float64 {
-	r0, r1 := k.RawRowView(0), k.RawRowView(1)
-	_, _ = r0[1], r1[1]
-	return [4]float64{r0[0], r0[1], r1[0], r1[1]}
-}
-
 // shape2 makes the matrices and slices matrix2 fills 2x2 (2 long), points
 // z.v2 at them, and records it in z.shaped2, which the general path
 // clears.
@@ -253,7 +455,7 @@ func (z *Analyzer) shape2() {
 	v := &z.v2
 	v.k, v.kinv, v.rga, v.sens, v.u, v.v = dense4(&z.k), dense4(&z.kinv), dense4(&z.rga), dense4(&z.sens), dense4(r.U), dense4(r.V)
 	r.Values = resizeFloats(r.Values, 2)
-	z.dl, z.dr = resizeFloats(z.dl, 2), resizeFloats(z.dr, 2)
+	z.dl, z.dr = resizeFloats(z.dl, 2)[:2:2], resizeFloats(z.dr, 2)[:2:2]
 	v.sv, v.dl, v.dr = (*[2]float64)(r.Values), (*[2]float64)(z.dl), (*[2]float64)(z.dr)
 	z.shaped2 = true
 }
@@ -314,6 +516,24 @@ func in1Range(v float64) bool {
 	const lo, hi = small2Bits << 1, big2Bits << 1
 	b := math.Float64bits(v) << 1  // |v| without its sign
 	return b == 0 || b-lo <= hi-lo // b < lo wraps around to above hi-lo
+}
+
+// in4Range is in1Range of a, b, c and d all together (in2Range of them),
+// one comparison for the four: the bits of |v| less small2's, as in1Range
+// compares them, with 0 for a zero, and the largest of those in range.
+func in4Range(a, b, c, d float64) bool {
+	return max(rangeKey(a), rangeKey(b), rangeKey(c), rangeKey(d)) <= (big2Bits-small2Bits)<<1
+}
+
+// rangeKey is 0 for v = ±0 and otherwise the bits of |v| (shifted left
+// by one) less small2's: at most (big2Bits-small2Bits)<<1 exactly when v is
+// within in1Range's range.
+func rangeKey(v float64) uint64 {
+	b := math.Float64bits(v) << 1
+	if b == 0 {
+		return 0
+	}
+	return b - small2Bits<<1
 }
 
 // small2Bits and big2Bits are the bits of small2 = 2⁻³⁰⁰ and 1/small2 =

@@ -147,9 +147,37 @@ func TestAnalyzerBits2Golden(t *testing.T) {
 // between calls as a careless caller might.
 func TestBrief2SameAsGeneral(t *testing.T) {
 	rnd := rand.New(rand.NewPCG(2026, 3))
+	// What a caller may do to the results it was lent, one field at a
+	// time, and a few at once: the next call must not depend on it.
+	scribbles := []func(a *Analysis){
+		func(a *Analysis) { a.Pairings[0], a.Pairings[1] = a.Pairings[1], a.Pairings[0] },
+		func(a *Analysis) { a.RGA, a.SVD, a.Dl, a.OutputIndex = nil, nil, nil, nil },
+		func(a *Analysis) { a.Pairings[0].Pairs[0], a.Pairings[1].Lambdas[1] = 7, 99 },
+		func(a *Analysis) { a.Pairings[1].Pairs, a.Pairings[0].Reasons = nil, []string{"x"} },
+		func(a *Analysis) { a.Pairings, a.Method, a.Notes, a.Source = a.Pairings[:1], "x", []string{"x"}, "x" },
+		func(a *Analysis) { a.Pairings[1].Label = "x" },
+		func(a *Analysis) { a.Pairings[0].Reasons = []string{} },
+		func(a *Analysis) { a.Pairings[1].Integrity = []SubsystemCheck{{}} },
+		func(a *Analysis) { a.Pairings[0].RDG = new(mat.Dense) },
+		func(a *Analysis) { a.Pairings[0].Lambdas = a.Pairings[0].Lambdas[:1] },
+		func(a *Analysis) { a.Pairings[1].Pairs = a.Pairings[0].Pairs },
+		func(a *Analysis) { a.Pairings[1].Lambdas = a.Pairings[1].Lambdas[1:] },
+		func(a *Analysis) { a.InputIndex = a.InputIndex[1:] },
+		func(a *Analysis) { a.OutputIndex[1] = 5 },
+		func(a *Analysis) { a.K, a.Kd = nil, new(mat.Dense) },
+		func(a *Analysis) { a.Outputs, a.Inputs, a.Disturbances = nil, a.Outputs, a.Inputs },
+		func(a *Analysis) { a.Selection = &Selection{} },
+		func(a *Analysis) { a.Dr = a.Dl },
+		func(a *Analysis) { a.Sensitivity, a.RGA = a.RGA, a.Sensitivity },
+		func(a *Analysis) { a.Caution, a.Scaling = "", ScaleSpan },
+		func(a *Analysis) { a.SVD = &SVDResult{} },
+		func(a *Analysis) { a.Screened, a.Rejected, a.Det, a.MinCond = 0, 3, 1, 1 },
+	}
 	for _, opts := range []Options{
 		{Brief: true, MaxPairings: -1},
 		{Brief: true, MaxPairings: 0, Scaling: ScaleSpan, Thresholds: Thresholds{CondHigh: 5}},
+		{Brief: true, MaxPairings: -1, Thresholds: Thresholds{LambdaLow: 0.8, LambdaHigh: 1.25, GoodLow: 0.95, GoodHigh: 1.05}},
+		{Brief: true, MaxPairings: 2, Scaling: ScaleNominal, Thresholds: Thresholds{LambdaLow: -0.5, GoodLow: 0.2}},
 	} {
 		z := NewAnalyzer(&opts)
 		var prev *Analysis
@@ -171,19 +199,8 @@ func TestBrief2SameAsGeneral(t *testing.T) {
 			for j := range g.Inputs {
 				g.Inputs[j].Span = 0.5 + rnd.Float64()
 			}
-			if prev != nil && len(prev.Pairings) == 2 {
-				switch rnd.IntN(6) {
-				case 0:
-					prev.Pairings[0], prev.Pairings[1] = prev.Pairings[1], prev.Pairings[0]
-				case 1:
-					prev.RGA, prev.SVD, prev.Dl, prev.OutputIndex = nil, nil, nil, nil
-				case 2:
-					prev.Pairings[0].Pairs[0], prev.Pairings[1].Lambdas[1] = 7, 99
-				case 3:
-					prev.Pairings[1].Pairs, prev.Pairings[0].Reasons = nil, []string{"x"}
-				case 4:
-					prev.Pairings, prev.Method, prev.Notes, prev.Source = prev.Pairings[:1], "x", []string{"x"}, "x"
-				}
+			if prev != nil && len(prev.Pairings) == 2 && rnd.IntN(4) != 0 {
+				scribbles[rnd.IntN(len(scribbles))](prev)
 			}
 			want, errW := Analyze(g, &opts)
 			got, errG := z.Analyze(g)
@@ -205,7 +222,8 @@ func TestBrief2SameAsGeneral(t *testing.T) {
 	}
 }
 
-// in1Range's comparison of bits is the comparison of numbers it replaces.
+// in1Range's and in4Range's comparisons of bits are the comparisons of
+// numbers they replace.
 func TestIn1RangeBits(t *testing.T) {
 	if small2Bits != math.Float64bits(small2) || big2Bits != math.Float64bits(1/small2) {
 		t.Fatalf("small2Bits %x, big2Bits %x: want %x, %x", small2Bits, big2Bits, math.Float64bits(small2), math.Float64bits(1/small2))
@@ -223,6 +241,12 @@ func TestIn1RangeBits(t *testing.T) {
 		}
 		if in1Range(v) != in2Range(v) {
 			t.Errorf("in1Range(%v) disagrees with in2Range", v)
+		}
+		w := vals[rnd.IntN(len(vals))]
+		for _, q := range [][4]float64{{v, 1, 1, 1}, {1, v, 1, 1}, {1, 1, v, 1}, {1, 1, 1, v}, {v, w, 0, 1}, {w, 1, v, -2}} {
+			if in4Range(q[0], q[1], q[2], q[3]) != in2Range(q[:]...) {
+				t.Errorf("in4Range%v disagrees with in2Range", q)
+			}
 		}
 	}
 }

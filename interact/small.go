@@ -115,25 +115,26 @@ func (w *luWork) det() float64 {
 
 // lu2Inverse is gonum's Dgetf2 (partial pivoting) and Dgetrs with the
 // identity for the 2x2 [a00 a01; a10 a11], operation for operation: the
-// inverse b (row by row), U's pivots p0 and u11, whether the rows were
-// swapped, and the exact ∞-norm condition number. ok is false when a pivot
-// is zero or the condition number is above 1e10 (or not a number).
-func lu2Inverse(a00, a01, a10, a11 float64) (b [4]float64, p0, u11 float64, swap bool, cond float64, ok bool) {
+// inverse b00, b01, b10, b11 (row by row), U's pivots p0 and u11, whether
+// the rows were swapped, and the exact ∞-norm condition number. ok is false
+// when a pivot is zero or the condition number is above 1e10 (or not a
+// number).
+func lu2Inverse(a00, a01, a10, a11 float64) (b00, b01, b10, b11, p0, u11 float64, swap bool, cond float64, ok bool) {
 	// Dgetf2, column 0: Idamax picks the first largest |a_i0|.
 	swap = math.Abs(a10) > math.Abs(a00)
 	if swap {
 		a00, a01, a10, a11 = a10, a11, a00, a01
 	}
 	if a00 == 0 {
-		return b, 0, 0, false, 0, false
+		return 0, 0, 0, 0, 0, 0, false, 0, false
 	}
 	l := a10 * (1 / a00)
 	u11 = a11 + float64((-1*l)*a01)
 	if u11 == 0 {
-		return b, 0, 0, false, 0, false
+		return 0, 0, 0, 0, 0, 0, false, 0, false
 	}
 	// Dgetrs: B = P·I, then L (unit lower) and U solves, row by row.
-	b00, b01, b10, b11 := 1.0, 0.0, 0.0, 1.0
+	b00, b01, b10, b11 = 1.0, 0.0, 0.0, 1.0
 	if swap {
 		b00, b01, b10, b11 = b10, b11, b00, b01
 	}
@@ -158,9 +159,9 @@ func lu2Inverse(a00, a01, a10, a11 float64) (b [4]float64, p0, u11 float64, swap
 	in := max(math.Abs(b00)+math.Abs(b01), math.Abs(b10)+math.Abs(b11))
 	cond = an * in
 	if !(cond <= 1e10) {
-		return b, 0, 0, false, 0, false
+		return 0, 0, 0, 0, 0, 0, false, 0, false
 	}
-	return [4]float64{b00, b01, b10, b11}, a00, u11, swap, cond, true
+	return b00, b01, b10, b11, a00, u11, swap, cond, true
 }
 
 // inverseDet2 is inverseDet of a 2x2 written out: gonum's Dgetf2 (partial
@@ -177,11 +178,10 @@ func inverseDet2(dst *mat.Dense, k *mat.Dense) (cond, det float64, ok bool) {
 	if !in2Range(a00, a01, a10, a11) {
 		return 0, 0, false
 	}
-	b, a00, u11, swap, cond, ok := lu2Inverse(a00, a01, a10, a11)
+	b00, b01, b10, b11, a00, u11, swap, cond, ok := lu2Inverse(a00, a01, a10, a11)
 	if !ok {
 		return 0, 0, false
 	}
-	b00, b01, b10, b11 := b[0], b[1], b[2], b[3]
 	// LogDet: sign from the diagonal and the swaps, magnitude through logs.
 	sign := 1.0
 	if a00 < 0 {
@@ -339,6 +339,17 @@ func hypot(p, q float64) float64 {
 	return p * math.Sqrt(1+float64(q*q))
 }
 
+// hypotPos is hypot(p, q) for a p > 0 (not NaN), the same operations
+// without |p| and the test for zero.
+func hypotPos(p, q float64) float64 {
+	q = math.Abs(q)
+	if p < q {
+		p, q = q, p
+	}
+	q = q / p
+	return p * math.Sqrt(1+float64(q*q))
+}
+
 // dbdsqrTol is Dbdsqr's relative tolerance, computed as Dbdsqr computes it.
 var dbdsqrTol = math.Max(10, math.Min(100, math.Pow(0x1p-53, -1.0/8))) * 0x1p-53
 
@@ -478,7 +489,8 @@ func condNone2(m00, m01, m10, m11 float64) (ssmin, ssmax float64, ok bool) {
 // written out for svd2Of, with math.Hypot replaced by the inlined hypot
 // (the same operations) and the branch for g = 0, which svd2Of never
 // passes, kept. Expressions are as gonum writes them, so that a compiler
-// fuses (or not) exactly what it fuses there.
+// fuses (or not) exactly what it fuses there, but for the signs of the
+// results, combined as bits (the same signs).
 func dlasv2(f, g, h float64) (ssmin, ssmax, snr, csr, snl, csl float64) {
 	const dlamchE = 0x1p-53
 	ft := f
@@ -528,12 +540,13 @@ func dlasv2(f, g, h float64) (ssmin, ssmax, snr, csr, snl, csl float64) {
 			}
 			m := gt / ft
 			t := 2 - l
-			s := hypot(t, m)
+			// 0 <= l <= 1 (fa >= ha, and fa > 0 here), so 1 <= t <= 2.
+			s := hypotPos(t, m)
 			var r float64
 			if l == 0 {
 				r = math.Abs(m)
 			} else {
-				r = hypot(l, m)
+				r = hypotPos(l, m)
 			}
 			a := 0.5 * (s + r)
 			ssmin = ha / a
@@ -547,7 +560,7 @@ func dlasv2(f, g, h float64) (ssmin, ssmax, snr, csr, snl, csl float64) {
 			} else {
 				t = (m/(s+t) + m/(r+l)) * (1 + a)
 			}
-			l = hypot(t, 2)
+			l = hypotPos(2, t) // hypot(t, 2): the larger of |t| and 2 divides either way
 			crt = 2 / l
 			srt = t / l
 			clt = (crt + srt*m) / a
@@ -565,16 +578,21 @@ func dlasv2(f, g, h float64) (ssmin, ssmax, snr, csr, snl, csl float64) {
 		csr = crt
 		snr = srt
 	}
-	var tsign float64
+	// gonum's tsign is a product of factors Copysign(1, x), exact, so its
+	// sign is the exclusive or of theirs, and only signs are taken from it:
+	// the signs are combined as bits.
+	const signBit = 1 << 63
+	var tsign uint64
 	switch pmax {
 	case 1:
-		tsign = math.Copysign(1, csr) * math.Copysign(1, csl) * math.Copysign(1, f)
+		tsign = math.Float64bits(csr) ^ math.Float64bits(csl) ^ math.Float64bits(f)
 	case 2:
-		tsign = math.Copysign(1, snr) * math.Copysign(1, csl) * math.Copysign(1, g)
+		tsign = math.Float64bits(snr) ^ math.Float64bits(csl) ^ math.Float64bits(g)
 	case 3:
-		tsign = math.Copysign(1, snr) * math.Copysign(1, snl) * math.Copysign(1, h)
+		tsign = math.Float64bits(snr) ^ math.Float64bits(snl) ^ math.Float64bits(h)
 	}
-	ssmax = math.Copysign(ssmax, tsign)
-	ssmin = math.Copysign(ssmin, tsign*math.Copysign(1, f)*math.Copysign(1, h))
+	ssmax = math.Float64frombits(math.Float64bits(ssmax)&^signBit | tsign&signBit)
+	tsign ^= math.Float64bits(f) ^ math.Float64bits(h)
+	ssmin = math.Float64frombits(math.Float64bits(ssmin)&^signBit | tsign&signBit)
 	return ssmin, ssmax, snr, csr, snl, csl
 }
