@@ -22,6 +22,13 @@ func BenchmarkSweepColumn20x20(b *testing.B) {
 // BenchmarkSweepSyrup100x100 is the peer's "blender sweep": the syrup
 // example, s_conc 0.60..0.68 x f_conc 600..1000 kg/h, 100 x 100.
 func BenchmarkSweepSyrup100x100(b *testing.B) {
+	sys, prog, axes := syrupSweep(b)
+	sweepBench(b, sys, prog, axes)
+}
+
+// syrupSweep is the syrup example with the axes of the peer's blender
+// sweep.
+func syrupSweep(b *testing.B) (*model.System, *jacobian.Program, []Axis) {
 	f, err := model.LoadFile("../../testdata/models/syrup.yaml")
 	if err != nil {
 		b.Fatal(err)
@@ -36,8 +43,7 @@ func BenchmarkSweepSyrup100x100(b *testing.B) {
 	}
 	_, ks, _ := sys.Lookup("s_conc")
 	_, kf, _ := sys.Lookup("f_conc")
-	axes := []Axis{AxisFor(sys, ks, 0.60, 0.68, 100, false), AxisFor(sys, kf, 600.0/3600, 1000.0/3600, 100, false)}
-	sweepBench(b, sys, prog, axes)
+	return sys, prog, []Axis{AxisFor(sys, ks, 0.60, 0.68, 100, false), AxisFor(sys, kf, 600.0/3600, 1000.0/3600, 100, false)}
 }
 
 func sweepBench(b *testing.B, sys *model.System, prog *jacobian.Program, axes []Axis) {
@@ -60,4 +66,16 @@ func sweepBench(b *testing.B, sys *model.System, prog *jacobian.Program, axes []
 	}
 	sinkRecords = n
 	b.ReportMetric(float64(n)/b.Elapsed().Seconds(), "points/s")
+}
+
+// BenchmarkFromModelSyrup100x100 is the set-up of the syrup sweep alone:
+// the nominal solve and analysis, the plan, and the chain heads.
+func BenchmarkFromModelSyrup100x100(b *testing.B) {
+	sys, prog, axes := syrupSweep(b)
+	ctx := context.Background()
+	for b.Loop() {
+		if _, err := FromModel(ctx, sys, prog, &ModelOptions{Axes: axes}); err != nil {
+			b.Fatal(err)
+		}
+	}
 }
