@@ -164,12 +164,17 @@ func (p *Plan) grid() {
 	}
 	na := len(p.Axes)
 	p.n, p.values = total, make([]float64, total*na) // one array, no pointer per point
+	idx := make([]int, na) // point i's grid index, counted up as i goes
 	for i := range total {
 		pt := p.Point(i)
-		r := i // GridIndex, without its slice
+		for a, k := range idx {
+			pt[a] = vals[a][k]
+		}
 		for a := na - 1; a >= 0; a-- {
-			pt[a] = vals[a][r%p.dims[a]]
-			r /= p.dims[a]
+			if idx[a]++; idx[a] < p.dims[a] {
+				break
+			}
+			idx[a] = 0
 		}
 	}
 	if len(p.Axes) == 1 {
@@ -181,7 +186,7 @@ func (p *Plan) grid() {
 		return
 	}
 	rest := p.dims[1:]
-	idx := make([]int, len(p.dims))
+	clear(idx)
 	p.Chains = make([][]Step, 0, p.dims[0])
 	for c := 0; c < p.dims[0]; c++ {
 		chain := make([]Step, 0, total/p.dims[0])

@@ -672,9 +672,8 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	if err != nil {
 		return nil, nil, err
 	}
-	csr := &sparse.CSR{Rows: n, Cols: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx, Val: jval}
 	if w.lu == nil {
-		w.lu, err = sparse.Factorize(csr, nil)
+		w.lu, err = sparse.Factorize(&sparse.CSR{Rows: n, Cols: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx, Val: jval}, nil)
 	} else {
 		err = w.lu.RefactorValues(jval)
 	}
