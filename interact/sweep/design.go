@@ -164,7 +164,7 @@ func (p *Plan) grid() {
 	}
 	na := len(p.Axes)
 	p.n, p.values = total, make([]float64, total*na) // one array, no pointer per point
-	idx := make([]int, na) // point i's grid index, counted up as i goes
+	idx := make([]int, na)                           // point i's grid index, counted up as i goes
 	for i := range total {
 		pt := p.Point(i)
 		for a, k := range idx {

@@ -241,6 +241,7 @@ func solveChain(ctx context.Context, prob *Problem, wk Worker, recs *recordMaker
 	// converge).
 	states = append(states[:0], make([]State, len(chain))...)
 	defer clear(states) // let the chain's states go
+	head := prob.head(c)
 	for k, s := range chain {
 		if ctx.Err() != nil {
 			return states, false
@@ -249,9 +250,9 @@ func solveChain(ctx context.Context, prob *Problem, wk Worker, recs *recordMaker
 			runtime.Gosched()
 		}
 		var rec *Record
-		if h := prob.head(c); h != nil && s.Parent < 0 && h.Record.Index == s.Point {
-			rec = h.Record.clone()
-			states[k] = h.State
+		if head != nil && s.Parent < 0 && head.Record.Index == s.Point {
+			rec = head.Record.clone()
+			states[k] = head.State
 		} else {
 			from := start
 			ok := false

@@ -10,6 +10,7 @@ import (
 	"strconv"
 	"strings"
 
+	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/mat"
 
 	"github.com/loopwright/loopwright/interact"
@@ -319,6 +320,10 @@ type modelWorker struct {
 	aopts  interact.Options
 	az     *interact.Analyzer // its results last until the next point
 	block  []float64          // what is left of the block take cuts from
+	fast   solve.Options      // the corrector's after a prediction
+	// The backing arrays of fp, dydx, dydu and k, which are the worker's
+	// own and never reallocated.
+	fpRaw, dydxRaw, dyduRaw, kRaw blas64.General
 }
 
 // pointBlock is the number of points whose numbers one block of take
@@ -353,6 +358,16 @@ func (m *modelRun) newWorker() *modelWorker {
 		Lower: m.lower, Upper: m.upper, VarNames: m.names, EqNames: m.eqNames,
 	}
 	w.sol = solve.NewSolver(w.prob)
+	w.fpRaw, w.dydxRaw, w.dyduRaw, w.kRaw = w.fp.RawMatrix(), w.dydx.RawMatrix(), w.dydu.RawMatrix(), w.k.RawMatrix()
+	// The corrector after a prediction: plain Newton on the whole system,
+	// a few iterations at most.
+	if opts := m.opts.Solver; opts != nil {
+		w.fast = *opts
+	}
+	w.fast.NoBlocks, w.fast.NoHomotopy = true, true
+	if w.fast.MaxIter <= 0 || w.fast.MaxIter > fastIterations {
+		w.fast.MaxIter = fastIterations
+	}
 	// Pivots are kept along a chain and reset to the nominal solve's at its
 	// start, so that records depend on the chain alone (not on -j).
 	w.sol.KeepPivots = true
@@ -403,17 +418,8 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	var res solve.Result // on the stack: no write barriers
 	solved := false
 	if x0 := w.predict(p, from, ft); x0 != nil {
-		fast := solve.Options{}
-		if opts != nil {
-			fast = *opts
-		}
-		fast.NoBlocks, fast.NoHomotopy = true, true
-		fast.MaxIter = fastIterations
-		if opts != nil && opts.MaxIter > 0 {
-			fast.MaxIter = min(opts.MaxIter, fastIterations)
-		}
 		res.X = buf[:n:n]
-		err = w.sol.SolveInto(ctx, &res, x0, &fast)
+		err = w.sol.SolveInto(ctx, &res, x0, &w.fast)
 		iters = res.Iterations
 		solved = err == nil || ctx.Err() != nil
 	}
@@ -445,11 +451,10 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	for i, v := range w.y {
 		rec.Outputs[i] = (v - w.m.outOffset[i]) / w.m.outDiv[i] // model.Unit.FromSI
 	}
+	kr, rr := &w.kRaw, a.RGA.RawMatrix()
 	for i := 0; i < no; i++ {
-		for j := 0; j < ni; j++ {
-			rec.K[i*ni+j] = k.At(i, j)
-			rec.RGA[i*ni+j] = a.RGA.At(i, j)
-		}
+		copyf(rec.K[i*ni:(i+1)*ni], kr.Data[i*kr.Stride:i*kr.Stride+ni])
+		copyf(rec.RGA[i*ni:(i+1)*ni], rr.Data[i*rr.Stride:i*rr.Stride+ni])
 	}
 	rec.Det = a.Det
 	rec.Cond = math.NaN()
@@ -554,16 +559,23 @@ func (w *modelWorker) predict(p []float64, from State, t *tangentData) []float64
 	if t == nil {
 		return nil
 	}
-	x := w.xpred
-	copyf(x, from.X)
+	x := w.xpred[:n]
+	xf := from.X[:n]
+	copyf(x, xf)
 	axes, span := w.m.axes, w.m.axisSpan[:len(w.m.axes)]
+	tp, dxdp := t.p[:len(axes)], t.dxdp[:len(axes)*n]
+	back := t.pBack != nil
+	var pBack []float64
+	if back {
+		pBack = t.pBack[:len(axes)]
+	}
 	// Δ = p - p_from and the step back g = p' - p_from, in axis spans.
 	var dd, gg, dg float64
 	for a, k := range axes {
-		d := (p[k] - t.p[a]) / span[a]
+		d := (p[k] - tp[a]) / span[a]
 		dd += d * d
-		if t.pBack != nil {
-			g := (t.pBack[a] - t.p[a]) / span[a]
+		if back {
+			g := (pBack[a] - tp[a]) / span[a]
 			gg, dg = gg+g*g, dg+d*g
 		}
 	}
@@ -578,14 +590,14 @@ func (w *modelWorker) predict(p []float64, from State, t *tangentData) []float64
 	// Whatever the cubic does not cover (all of the step, or the part off
 	// the line) is taken to first order.
 	for a, k := range axes {
-		dp := p[k] - t.p[a]
+		dp := p[k] - tp[a]
 		if cubic {
-			dp -= c * (t.pBack[a] - t.p[a])
+			dp -= c * (pBack[a] - tp[a])
 		}
 		if dp == 0 {
 			continue
 		}
-		for j, v := range t.dxdp[a*n : (a+1)*n] {
+		for j, v := range dxdp[a*n : (a+1)*n] {
 			x[j] += v * dp
 		}
 	}
@@ -595,26 +607,27 @@ func (w *modelWorker) predict(p []float64, from State, t *tangentData) []float64
 		h00, h10 := 2*c*c*c-3*c*c+1, c*c*c-2*c*c+c
 		h01, h11 := -2*c*c*c+3*c*c, c*c*c-c*c
 		// dx/ds at both ends, summed axis by axis.
-		m0, m1 := w.m0, w.m1
+		m0, m1 := w.m0[:n], w.m1[:n]
 		clear(m0)
 		clear(m1)
+		dxBack := t.dxBack[:len(axes)*n]
 		for a := range axes {
-			g := t.pBack[a] - t.p[a]
-			d0, d1 := t.dxdp[a*n:(a+1)*n], t.dxBack[a*n:(a+1)*n]
+			g := pBack[a] - tp[a]
+			d0, d1 := dxdp[a*n:(a+1)*n], dxBack[a*n:(a+1)*n]
 			for j := range m0 {
 				m0[j] += d0[j] * g
 				m1[j] += d1[j] * g
 			}
 		}
-		xb, xf := t.xBack[:n], from.X[:n]
+		xb := t.xBack[:n]
 		for j := range x {
 			x[j] += (h00-1)*xf[j] + h10*m0[j] + h01*xb[j] + h11*m1[j]
 		}
 	}
-	lower, upper := w.m.lower[:len(x)], w.m.upper[:len(x)]
+	lower, upper := w.m.lower[:n], w.m.upper[:n]
 	for j, v := range x {
 		if !(v > lower[j] && v < upper[j]) || math.IsInf(v, 0) {
-			x[j] = from.X[j] // keep what would leave the bounds where it was
+			x[j] = xf[j] // keep what would leave the bounds where it was
 		}
 	}
 	return x
@@ -689,8 +702,8 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	}
 	k := w.k // the analysis copies what it keeps
 	// The matrices are the worker's own, made dense with these shapes.
-	fp, np := w.fp.RawMatrix(), len(m.pcols)
-	dydx, dydu, kr := w.dydx.RawMatrix(), w.dydu.RawMatrix(), k.RawMatrix()
+	fp, np := &w.fpRaw, len(m.pcols)
+	dydx, dydu, kr := &w.dydxRaw, &w.dyduRaw, &w.kRaw
 	rhs, z := w.rhs[:n], w.z[:n]
 	for j := 0; j < ni; j++ {
 		for r := range rhs {
