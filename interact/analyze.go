@@ -80,6 +80,15 @@ type Options struct {
 	// pairing are kept, since they decide verdicts. It is for callers that
 	// analyse many points and keep only the numbers (an envelope sweep).
 	Brief bool
+
+	// NoDirections leaves out of the Analysis the singular vectors, the
+	// element sensitivities and the scalings: SVD.U, SVD.V, Sensitivity,
+	// Dl and Dr are nil. Everything else is as without it, bit for bit
+	// (RGA, Det, SVD.Values, SVD.Cond, MinCond, every pairing's numbers,
+	// verdicts and the ranking). It is for callers that read none of those
+	// five (an envelope sweep); an Analyzer analysing 2x2 gain sets briefly
+	// then skips their arithmetic, other analyses compute and drop them.
+	NoDirections bool
 }
 
 // Analysis is the interaction analysis of a gain set at one operating point.

@@ -40,8 +40,9 @@ type Analyzer struct {
 	opts Options
 	th   Thresholds
 
-	a   Analysis
-	svd SVDResult
+	a    Analysis
+	svd  SVDResult
+	svdN SVDResult // the SVD without directions (Options.NoDirections)
 
 	k, kd, full, fullD     mat.Dense // square scaled gains; the whole scaled set when not square
 	fy                     []float64
@@ -181,6 +182,9 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 			return nil, err
 		}
 		if ok {
+			if opts.NoDirections {
+				z.dropDirections()
+			}
 			if opts.Brief && (maxOut < 0 || maxOut >= 2) {
 				z.pairings2(k00, k01, k10, k11)
 				return a, nil
@@ -219,7 +223,24 @@ func (z *Analyzer) Analyze(g *GainSet) (*Analysis, error) {
 	}
 	a.Dl, a.Dr = z.dl, z.dr
 	z.noteCondition()
+	if opts.NoDirections {
+		z.dropDirections()
+	}
 	return z.rank(a, n, maxOut)
+}
+
+// dropDirections takes out of the analysis what Options.NoDirections
+// leaves out, once its numbers are computed: Sensitivity, Dl, Dr, and
+// SVD.U and SVD.V, the SVD becoming z.svdN with the same values and
+// condition number.
+func (z *Analyzer) dropDirections() {
+	a := &z.a
+	a.Sensitivity, a.Dl, a.Dr = nil, nil, nil
+	if a.SVD != nil {
+		n := &z.svdN
+		n.Values, n.Cond, n.U, n.V = a.SVD.Values, a.SVD.Cond, nil, nil
+		a.SVD = n
+	}
 }
 
 // noteCondition adds the note on γ* when it exceeds CondHigh.

@@ -93,7 +93,13 @@ func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 	}
 	// The SVD, as svdInto gives it, first: its chain of divisions and
 	// square roots is the longest, and the rest can proceed meanwhile.
-	if !svd2Of(v.sv, v.u, v.v, k00, k01, k10, k11) {
+	// Without directions, its values alone, the same bits.
+	noDir := z.opts.NoDirections
+	if noDir {
+		if !svd2ValuesOf(v.sv, k00, k01, k10, k11) {
+			return nil, false, nil
+		}
+	} else if !svd2Of(v.sv, v.u, v.v, k00, k01, k10, k11) {
 		return nil, false, nil
 	}
 	// inverseDet2's LU and inverse.
@@ -132,11 +138,20 @@ func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 	if a.RGA != &z.rga {
 		a.RGA = &z.rga
 	}
-	if a.Sensitivity != &z.sens {
-		a.Sensitivity = &z.sens
-	}
-	if a.SVD != &z.svd {
-		a.SVD = &z.svd
+	if noDir {
+		if a.Sensitivity != nil {
+			a.Sensitivity = nil
+		}
+		if a.SVD != &z.svdN {
+			a.SVD = &z.svdN
+		}
+	} else {
+		if a.Sensitivity != &z.sens {
+			a.Sensitivity = &z.sens
+		}
+		if a.SVD != &z.svd {
+			a.SVD = &z.svd
+		}
 	}
 
 	// matrix2's arithmetic: det K, K⁻¹, Λ = K ∘ (K⁻¹)ᵀ, zeroRoundoff and
@@ -165,11 +180,22 @@ func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 		}
 	}
 	*v.rga = [4]float64{l00, l01, l10, l11}
-	*v.sens = [4]float64{1 / l00, 1 / l01, 1 / l10, 1 / l11}
+	if !noDir {
+		*v.sens = [4]float64{1 / l00, 1 / l01, 1 / l10, 1 / l11}
+	}
 	a.Det = det
 	r := &z.svd
 	s0, s1 := v.sv[0], v.sv[1]
 	r.Cond = s0 / s1
+	if noDir {
+		// The same values and condition number, without U and V.
+		n := &z.svdN
+		setSlice2(&n.Values, v.sv)
+		n.Cond = r.Cond
+		if n.U != nil || n.V != nil {
+			n.U, n.V = nil, nil
+		}
+	}
 	if s1 == 0 || r.Cond > 1/0x1p-52 { // as minCondInto; not reached below cond 1e10
 		return nil, true, &SingularError{What: "K", Cond: r.Cond}
 	}
@@ -178,21 +204,29 @@ func (z *Analyzer) brief2(g *GainSet) (*Analysis, bool, error) {
 		m = lam01
 	}
 	if math.Abs(m) >= 1e-3 && gamma <= 64 {
-		ak, bk, ck, dk := math.Abs(k00), math.Abs(k01), math.Abs(k10), math.Abs(k11)
-		s := math.Sqrt(ak * ck / (bk * dk))
-		q := ak / (s * dk)
-		gq, gs := math.Sqrt(q), math.Sqrt(s)
-		*v.dl = [2]float64{1 / gq, q / gq}
-		*v.dr = [2]float64{1 / gs, s / gs}
+		if !noDir { // γ* is the formula's: the scalings are for Dl and Dr alone
+			ak, bk, ck, dk := math.Abs(k00), math.Abs(k01), math.Abs(k10), math.Abs(k11)
+			s := math.Sqrt(ak * ck / (bk * dk))
+			q := ak / (s * dk)
+			gq, gs := math.Sqrt(q), math.Sqrt(s)
+			*v.dl = [2]float64{1 / gq, q / gq}
+			*v.dr = [2]float64{1 / gs, s / gs}
+		}
 	} else if gamma, ok = minCond2(&z.k, z.dl, z.dr); !ok {
+		// (γ* from the balanced matrix needs the scalings, with or
+		// without NoDirections.)
 		var err error
 		if gamma, err = minCondInto(&z.k, r, &z.dl, &z.dr, &z.mw); err != nil {
 			return nil, true, err
 		}
 	}
 	a.MinCond = gamma
-	setSlice2(&a.Dl, v.dl)
-	setSlice2(&a.Dr, v.dr)
+	if !noDir {
+		setSlice2(&a.Dl, v.dl)
+		setSlice2(&a.Dr, v.dr)
+	} else if a.Dl != nil || a.Dr != nil {
+		a.Dl, a.Dr = nil, nil
+	}
 	noted := gamma > z.th.CondHigh
 	if noted {
 		z.noteCondition()

@@ -87,6 +87,16 @@ var garbageSink []byte
 // the collector runs, with its write barrier on, part of the time, as it
 // does in a sweep.
 func BenchmarkAnalyzerBrief2Sweep(b *testing.B) {
+	sweepBench(b, &Options{Brief: true, MaxPairings: -1})
+}
+
+// BenchmarkAnalyzerBrief2SweepNoDirections is BenchmarkAnalyzerBrief2Sweep
+// with Options.NoDirections, as a sweep that reads no directions can set it.
+func BenchmarkAnalyzerBrief2SweepNoDirections(b *testing.B) {
+	sweepBench(b, &Options{Brief: true, MaxPairings: -1, NoDirections: true})
+}
+
+func sweepBench(b *testing.B, opts *Options) {
 	// Neighbouring points of a sweep: K moves smoothly, by up to 20 %.
 	k0 := benchGains(2, 0).K
 	ks := make([]*mat.Dense, 256)
@@ -101,7 +111,7 @@ func BenchmarkAnalyzerBrief2Sweep(b *testing.B) {
 	}
 	g := gainSet(ks[0], names4(2, "y"), names4(2, "u"))
 	g.Source = "model"
-	z := NewAnalyzer(&Options{Brief: true, MaxPairings: -1})
+	z := NewAnalyzer(opts)
 	live := make([][]byte, 1<<14)
 	b.ReportAllocs()
 	for i := 0; b.Loop(); i++ {

@@ -172,12 +172,24 @@ func TestBrief2SameAsGeneral(t *testing.T) {
 		func(a *Analysis) { a.Caution, a.Scaling = "", ScaleSpan },
 		func(a *Analysis) { a.SVD = &SVDResult{} },
 		func(a *Analysis) { a.Screened, a.Rejected, a.Det, a.MinCond = 0, 3, 1, 1 },
+		func(a *Analysis) {
+			if a.SVD.U == nil { // NoDirections: the SVD's fields are the Analyzer's to repair
+				a.SVD.U, a.SVD.Values, a.Sensitivity, a.Dr = new(mat.Dense), nil, new(mat.Dense), []float64{1}
+			}
+		},
+		func(a *Analysis) {
+			if a.SVD.V == nil {
+				a.SVD.V, a.SVD.Cond = new(mat.Dense), 0
+			}
+		},
 	}
 	for _, opts := range []Options{
 		{Brief: true, MaxPairings: -1},
 		{Brief: true, MaxPairings: 0, Scaling: ScaleSpan, Thresholds: Thresholds{CondHigh: 5}},
 		{Brief: true, MaxPairings: -1, Thresholds: Thresholds{LambdaLow: 0.8, LambdaHigh: 1.25, GoodLow: 0.95, GoodHigh: 1.05}},
 		{Brief: true, MaxPairings: 2, Scaling: ScaleNominal, Thresholds: Thresholds{LambdaLow: -0.5, GoodLow: 0.2}},
+		{Brief: true, MaxPairings: -1, NoDirections: true},
+		{Brief: true, MaxPairings: -1, Scaling: ScaleSpan, NoDirections: true, Thresholds: Thresholds{CondHigh: 5}},
 	} {
 		z := NewAnalyzer(&opts)
 		var prev *Analysis

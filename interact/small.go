@@ -470,6 +470,96 @@ func svd2Of(s *[2]float64, u, v *[4]float64, a00, a01, a10, a11 float64) bool {
 	return true
 }
 
+// svd2ValuesOf is svd2Of's s alone, bit for bit, for a caller that does
+// not want U and V: the same reflector and the same decision to rotate,
+// and of Dlasv2 only the arithmetic of the values (dlasv2Values). Dlasv2
+// gives the values signs that svd2Of then takes off again, which leaves
+// their magnitudes unless a value is ±0 (or NaN), whose sign stays: for
+// those it computes svd2Of in full. It writes nothing when it reports
+// false, which it does when svd2Of does.
+func svd2ValuesOf(s *[2]float64, a00, a01, a10, a11 float64) bool {
+	d0, e0, d1, hv, tau := bidiag2(a00, a01, a10, a11)
+	if tau != 0 && hv == 0 {
+		return false // underflow inside the reflector: leave it to LAPACK
+	}
+	// svd2Of's decision to rotate.
+	const unfl = 0x1p-1022
+	tol := dbdsqrTol
+	rotate := math.Abs(e0) > tol*math.Abs(d0) && math.Abs(e0) > float64(6*2*2)*unfl
+	if !rotate {
+		sminoa := math.Abs(d0)
+		if sminoa != 0 {
+			mu := math.Abs(d1) * (sminoa / (sminoa + math.Abs(e0)))
+			if mu < sminoa {
+				sminoa = mu
+			}
+		}
+		sminoa /= math.Sqrt(2)
+		thresh := maxPos(tol*sminoa, float64(6*2*2)*unfl)
+		rotate = !(math.Abs(e0) <= thresh)
+	}
+	if rotate {
+		ssmin, ssmax := dlasv2Values(d0, e0, d1)
+		if !(ssmin > 0 && ssmax > 0) { // a zero or NaN: its sign is Dlasv2's
+			var u, v [4]float64
+			return svd2Of(s, &u, &v, a00, a01, a10, a11)
+		}
+		d1, d0 = ssmin, ssmax // signs aside, what svd2Of has here
+	}
+	if d0 < 0 {
+		d0 *= -1
+	}
+	if d1 < 0 {
+		d1 *= -1
+	}
+	if !(d1 <= d0) {
+		d0, d1 = d1, d0
+	}
+	*s = [2]float64{d0, d1}
+	return true
+}
+
+// dlasv2Values is dlasv2's ssmin and ssmax without their signs, which are
+// |ssmin| and |ssmax| of dlasv2 (which sets the sign bits of these
+// numbers, all >= 0): the same operations, without the rotations.
+func dlasv2Values(f, g, h float64) (ssmin, ssmax float64) {
+	const dlamchE = 0x1p-53
+	ft := f
+	fa := math.Abs(ft)
+	ha := math.Abs(h)
+	if ha > fa {
+		ft = h
+		fa, ha = ha, fa
+	}
+	gt := g
+	ga := math.Abs(gt)
+	if ga == 0 {
+		return ha, fa
+	}
+	if ga > fa && (fa/ga) < dlamchE {
+		if ha > 1 {
+			return fa / (ga / ha), ga
+		}
+		return (fa / ga) * ha, ga
+	}
+	d := fa - ha
+	l := d / fa
+	if d == fa {
+		l = 1
+	}
+	m := gt / ft
+	t := 2 - l
+	s := hypotPos(t, m)
+	var r float64
+	if l == 0 {
+		r = math.Abs(m)
+	} else {
+		r = hypotPos(l, m)
+	}
+	a := 0.5 * (s + r)
+	return ha / a, fa * a
+}
+
 // condNone2 is the singular values of the 2x2 m as gonum's Dgesvd without
 // vectors gives them (Dgebd2, then Dlasq1, which for n = 2 is Dlas2). ok is
 // false for matrices out of range.
