@@ -143,7 +143,7 @@ func TestAnalyzerSameAsReference(t *testing.T) {
 	reused := map[Options]*Analyzer{}
 	verdicts := map[Verdict]int{}
 	errs := 0
-	for trial := 0; trial < 1500; trial++ {
+	for trial := 0; trial < trialCount(1500); trial++ {
 		g := randomGainSet(rnd, trial)
 		opts := randomOptions(trial)
 		what := fmt.Sprintf("trial %d (%v, %+v)", trial, g.K.RawMatrix().Data, opts)
@@ -231,4 +231,13 @@ func TestAnalyzerAllocations(t *testing.T) {
 			t.Errorf("2x2 with %d disturbances: %v allocations per analysis, want 0", nd, allocs)
 		}
 	}
+}
+
+// trialCount is n, or a tenth of it with -short: the randomized equivalence
+// tests are the slowest of the package.
+func trialCount(n int) int {
+	if testing.Short() {
+		return max(n/10, 1)
+	}
+	return n
 }

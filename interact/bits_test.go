@@ -193,7 +193,7 @@ func TestBrief2SameAsGeneral(t *testing.T) {
 	} {
 		z := NewAnalyzer(&opts)
 		var prev *Analysis
-		for trial := 0; trial < 3000; trial++ {
+		for trial := 0; trial < trialCount(3000); trial++ {
 			var g *GainSet
 			switch rnd.IntN(10) {
 			case 0:

@@ -68,7 +68,7 @@ func TestNoDirectionsSameNumbers(t *testing.T) {
 		with := opts
 		with.NoDirections = true
 		zw, zo := NewAnalyzer(&with), NewAnalyzer(&opts)
-		for trial := 0; trial < 800; trial++ {
+		for trial := 0; trial < trialCount(800); trial++ {
 			var g *GainSet
 			switch r := rnd.IntN(20); {
 			case r == 0:

@@ -375,8 +375,9 @@ func (m *modelRun) newWorker() *modelWorker {
 		w.aopts = *m.opts.Analysis
 	}
 	w.aopts.MaxPairings = -1
-	// The records keep numbers and verdicts only: skip the words.
-	w.aopts.Brief = true
+	// The records keep numbers and verdicts only: skip the words, and the
+	// singular vectors, sensitivities and scalings no record reads.
+	w.aopts.Brief, w.aopts.NoDirections = true, true
 	w.az = interact.NewAnalyzer(&w.aopts)
 	w.gs = interact.GainSet{Outputs: m.signalsO, Inputs: m.signalsI, Source: "model"}
 	return w
