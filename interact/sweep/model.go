@@ -38,6 +38,10 @@ type ModelOptions struct {
 	// ModelID identifies the model text for the fingerprint beside its
 	// expanded equations (the file's bytes, say); may be empty.
 	ModelID string
+
+	// generalOutputs turns off the shortcut for outputs that are plain
+	// unknowns (tests compare the two).
+	generalOutputs bool
 }
 
 // EnvelopeAxes converts the model's envelope into sweep axes.
@@ -248,13 +252,17 @@ type modelRun struct {
 	signalsI          []interact.Signal
 	outScale          []float64 // SI per display unit (differences)
 	outOffset, outDiv []float64 // of each output's unit, as model.Unit.FromSI uses them
-	inScale           []float64
-	lower             []float64
-	upper             []float64
-	pattern           *jacobian.Sparse
-	interest          []interact.Pairing
-	names             []string
-	eqNames           []string
+	// outVar[i] is the unknown that output i is, when every output is a
+	// plain unknown (nil otherwise): then an output's value is that
+	// unknown's and its gradient a unit row, with no evaluation.
+	outVar   []int
+	inScale  []float64
+	lower    []float64
+	upper    []float64
+	pattern  *jacobian.Sparse
+	interest []interact.Pairing
+	names    []string
+	eqNames  []string
 
 	pairNames []string      // names of the pairings of interest
 	pivots    *solve.Pivots // of the nominal solve, where every chain starts
@@ -292,6 +300,16 @@ func (m *modelRun) init() {
 		m.eqNames = append(m.eqNames, e.Name)
 	}
 	m.pattern = m.prog.Pattern()
+	if !m.opts.generalOutputs {
+		for _, o := range sys.Outputs {
+			v, ok := o.Expr.(*model.Var)
+			if !ok {
+				m.outVar = nil
+				break
+			}
+			m.outVar = append(m.outVar, v.Index)
+		}
+	}
 	m.pcols = append(append([]int(nil), sys.Inputs...), m.axes...)
 }
 
@@ -441,7 +459,11 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	if err != nil {
 		return st, err
 	}
-	if err := w.eval.Outputs(w.y, x, p); err != nil {
+	if w.m.outVar != nil && w.finiteOutputs(x) {
+		for i, v := range w.m.outVar {
+			w.y[i] = x[v]
+		}
+	} else if err := w.eval.Outputs(w.y, x, p); err != nil {
 		return st, err
 	}
 	rec.Outputs, buf = buf[:no:no], buf[no:]
@@ -698,8 +720,11 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	if err := w.eval.ParamJacobian(w.fp, x, p, m.pcols); err != nil {
 		return nil, nil, err
 	}
-	if err := w.eval.OutputGradients(w.dydx, w.dydu, x, p, m.sys.Inputs); err != nil {
-		return nil, nil, err
+	plain := m.outVar != nil && w.finiteOutputs(x)
+	if !plain {
+		if err := w.eval.OutputGradients(w.dydx, w.dydu, x, p, m.sys.Inputs); err != nil {
+			return nil, nil, err
+		}
 	}
 	k := w.k // the analysis copies what it keeps
 	// The matrices are the worker's own, made dense with these shapes.
@@ -712,10 +737,23 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 		}
 		w.lu.SolveWith(w.work, z, rhs)
 		for i := 0; i < no; i++ {
-			s := dydu.Data[i*dydu.Stride+j]
-			row := dydx.Data[i*dydx.Stride : i*dydx.Stride+n]
-			for c, v := range row {
-				s += v * z[c]
+			var s float64
+			if plain {
+				// dy_i/du_j = 0 and dy_i/dx a unit row, summed as below
+				// to the bit (signed zeros and NaN included).
+				for c, v := range z {
+					if c == m.outVar[i] {
+						s += 1 * v
+					} else {
+						s += 0 * v
+					}
+				}
+			} else {
+				s = dydu.Data[i*dydu.Stride+j]
+				row := dydx.Data[i*dydx.Stride : i*dydx.Stride+n]
+				for c, v := range row {
+					s += v * z[c]
+				}
 			}
 			kr.Data[i*kr.Stride+j] = s * m.inScale[j] / m.outScale[i]
 		}
@@ -733,6 +771,18 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 		return nil, k, err
 	}
 	return a, k, nil
+}
+
+// finiteOutputs reports whether the unknowns that are the outputs (see
+// modelRun.outVar) are finite at x; where one is not, the evaluations say
+// so in their own words.
+func (w *modelWorker) finiteOutputs(x []float64) bool {
+	for _, v := range w.m.outVar {
+		if math.IsInf(x[v], 0) || math.IsNaN(x[v]) {
+			return false
+		}
+	}
+	return true
 }
 
 // systemID is a digest of the expanded system: symbols, values and
