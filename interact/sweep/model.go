@@ -474,11 +474,9 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	for i, v := range w.y {
 		rec.Outputs[i] = (v - w.m.outOffset[i]) / w.m.outDiv[i] // model.Unit.FromSI
 	}
-	kr, rr := &w.kRaw, a.RGA.RawMatrix()
-	for i := 0; i < no; i++ {
-		copyf(rec.K[i*ni:(i+1)*ni], kr.Data[i*kr.Stride:i*kr.Stride+ni])
-		copyf(rec.RGA[i*ni:(i+1)*ni], rr.Data[i*rr.Stride:i*rr.Stride+ni])
-	}
+	rowsInto(rec.K, &w.kRaw, no, ni)
+	rr := a.RGA.RawMatrix()
+	rowsInto(rec.RGA, &rr, no, ni)
 	rec.Det = a.Det
 	rec.Cond = math.NaN()
 	if a.SVD != nil {
@@ -497,7 +495,8 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	unscaled := w.aopts.Scaling == interact.ScaleNone
 	for q, pr := range w.m.interest {
 		found := false
-		for _, r := range a.Pairings {
+		for ri := range a.Pairings {
+			r := &a.Pairings[ri]
 			if slices.Equal(r.Pairs, pr) {
 				rec.Pass[q] = passes(r.Verdict)
 				rec.NI[q], found = r.Niederlinski, true
@@ -864,6 +863,17 @@ func writeNode(b *strings.Builder, n model.Node, seen map[model.Node]int) {
 		b.WriteByte(')')
 	default:
 		panic(fmt.Sprintf("sweep: unknown node type %T", n))
+	}
+}
+
+// rowsInto copies the rows×cols matrix m into dst, row by row.
+func rowsInto(dst []float64, m *blas64.General, rows, cols int) {
+	if m.Stride == cols {
+		copyf(dst[:rows*cols], m.Data[:rows*cols])
+		return
+	}
+	for i := 0; i < rows; i++ {
+		copyf(dst[i*cols:(i+1)*cols], m.Data[i*m.Stride:i*m.Stride+cols])
 	}
 }
 
