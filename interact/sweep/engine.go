@@ -135,6 +135,7 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 	next, emitted := 0, 0
 	var emitErr error
 	var pool sync.Pool // of the Records emitted, for the next points
+	var free []*Record // the same with one worker, which needs no locking
 	put := func(r *Record) {
 		if emitErr != nil {
 			return
@@ -143,7 +144,11 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 			cancel()
 			return
 		}
-		pool.Put(r)
+		if workers == 1 {
+			free = append(free, r)
+		} else {
+			pool.Put(r)
+		}
 		emitted++
 		if opts.Progress != nil {
 			opts.Progress(emitted, len(todo))
@@ -167,7 +172,7 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 		// One worker: solve the chains here, with no goroutines to hand the
 		// records over.
 		wk := prob.NewWorker()
-		recs := &recordMaker{prob: prob, pool: &pool}
+		recs := &recordMaker{prob: prob, free: &free}
 		var states []State
 		for _, c := range chains {
 			var ok bool
@@ -332,12 +337,13 @@ func (prob *Problem) head(c int) *Head {
 }
 
 // recordMaker makes the records of one worker's points. The Record structs
-// come from pool, where Run puts them back once emitted (nil: a new one
-// each time); their Values and Pass are cut from blocks shared by many
-// records and never reused, so that emitted slices stay valid.
+// come from pool or free, where Run puts them back once emitted (both nil:
+// a new one each time); their Values and Pass are cut from blocks shared by
+// many records and never reused, so that emitted slices stay valid.
 type recordMaker struct {
 	prob *Problem
 	pool *sync.Pool
+	free *[]*Record // Run's, when Run and the worker share a goroutine
 	vals []float64
 	pass []bool
 }
@@ -351,7 +357,10 @@ const recordBlock = 64
 // the header's pairings.
 func (m *recordMaker) record(i int) *Record {
 	var r *Record
-	if m.pool != nil {
+	if m.free != nil && len(*m.free) > 0 {
+		f := *m.free
+		r, *m.free = f[len(f)-1], f[:len(f)-1]
+	} else if m.pool != nil {
 		r, _ = m.pool.Get().(*Record)
 	}
 	if r == nil {
