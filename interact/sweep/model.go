@@ -339,6 +339,7 @@ type modelWorker struct {
 	az     *interact.Analyzer // its results last until the next point
 	block  []float64          // what is left of the block take cuts from
 	fast   solve.Options      // the corrector's after a prediction
+	jac    jacobian.Sparse    // dF/dx in the pattern, over the solver's values
 	// The backing arrays of fp, dydx, dydu and k, which are the worker's
 	// own and never reallocated.
 	fpRaw, dydxRaw, dyduRaw, kRaw blas64.General
@@ -370,11 +371,15 @@ func (m *modelRun) newWorker() *modelWorker {
 		N: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx,
 		Residual: func(f, x []float64) error { return w.eval.Residual(f, x, w.p) },
 		ResidualJacobian: func(f, jval, x []float64) error {
-			j := jacobian.Sparse{Rows: n, Cols: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx, Val: jval}
-			return w.eval.ResidualJacobian(f, &j, x, w.p)
+			j := &w.jac
+			if len(j.Val) != len(jval) || len(jval) == 0 || &j.Val[0] != &jval[0] {
+				j.Val = jval // the solver's own array, the same call after call
+			}
+			return w.eval.ResidualJacobian(f, j, x, w.p)
 		},
 		Lower: m.lower, Upper: m.upper, VarNames: m.names, EqNames: m.eqNames,
 	}
+	w.jac = jacobian.Sparse{Rows: n, Cols: n, RowPtr: m.pattern.RowPtr, ColIdx: m.pattern.ColIdx}
 	w.sol = solve.NewSolver(w.prob)
 	w.fpRaw, w.dydxRaw, w.dyduRaw, w.kRaw = w.fp.RawMatrix(), w.dydx.RawMatrix(), w.dydu.RawMatrix(), w.k.RawMatrix()
 	// The corrector after a prediction: plain Newton on the whole system,
