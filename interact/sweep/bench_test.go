@@ -29,18 +29,7 @@ func BenchmarkSweepSyrup100x100(b *testing.B) {
 // syrupSweep is the syrup example with the axes of the peer's blender
 // sweep.
 func syrupSweep(b *testing.B) (*model.System, *jacobian.Program, []Axis) {
-	f, err := model.LoadFile("../../testdata/models/syrup.yaml")
-	if err != nil {
-		b.Fatal(err)
-	}
-	sys, err := f.Expand(nil)
-	if err != nil {
-		b.Fatal(err)
-	}
-	prog, err := jacobian.Compile(sys)
-	if err != nil {
-		b.Fatal(err)
-	}
+	sys, prog := syrupModel(b)
 	_, ks, _ := sys.Lookup("s_conc")
 	_, kf, _ := sys.Lookup("f_conc")
 	return sys, prog, []Axis{AxisFor(sys, ks, 0.60, 0.68, 100, false), AxisFor(sys, kf, 600.0/3600, 1000.0/3600, 100, false)}
@@ -78,4 +67,21 @@ func BenchmarkFromModelSyrup100x100(b *testing.B) {
 			b.Fatal(err)
 		}
 	}
+}
+
+// syrupModel is the syrup example (testdata/models/syrup.yaml), compiled.
+func syrupModel(t testing.TB) (*model.System, *jacobian.Program) {
+	f, err := model.LoadFile("../../testdata/models/syrup.yaml")
+	if err != nil {
+		t.Fatal(err)
+	}
+	sys, err := f.Expand(nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	prog, err := jacobian.Compile(sys)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sys, prog
 }

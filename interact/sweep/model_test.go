@@ -205,18 +205,7 @@ func TestColumnChecksFlagNegativeBottoms(t *testing.T) {
 // values and unit-row gradients without evaluating them; the records must
 // be those of the evaluated outputs to the bit.
 func TestPlainOutputsSameAsEvaluated(t *testing.T) {
-	f, err := model.LoadFile("../../testdata/models/syrup.yaml")
-	if err != nil {
-		t.Fatal(err)
-	}
-	sys, err := f.Expand(nil)
-	if err != nil {
-		t.Fatal(err)
-	}
-	prog, err := jacobian.Compile(sys)
-	if err != nil {
-		t.Fatal(err)
-	}
+	sys, prog := syrupModel(t)
 	_, ks, _ := sys.Lookup("s_conc")
 	_, kf, _ := sys.Lookup("f_conc")
 	axes := []Axis{AxisFor(sys, ks, 0.60, 0.68, 12, false), AxisFor(sys, kf, 0, 1000.0/3600, 15, false)}
