@@ -182,8 +182,8 @@ func Run(ctx context.Context, prob *Problem, opts *Options, emit func(*Record) e
 		}
 	} else {
 		jobs := make(chan int)
-		// Room for a run of records, so that one worker on one core hands them
-		// over in runs rather than one switch of goroutines per record.
+		// Room for a run of records, so that workers sharing a core hand
+		// them over in runs rather than one switch of goroutines per record.
 		results := make(chan *Record, 64*workers)
 		var wg sync.WaitGroup
 		for w := 0; w < workers; w++ {
