@@ -221,7 +221,19 @@ func (e *Eval) ResidualJacobian(f []float64, dst *Sparse, x, p []float64) error 
 func (e *Eval) jacobianRows(f []float64, dst *Sparse, pre bool) (retry bool, err error) {
 	// Everything finite (the common case): gather without looking further.
 	prog := e.prog
-	if gatherFinite(e.w, prog.eqOut) && gatherFinite(e.d, prog.eqAdj) {
+	if !pre {
+		// The values checked first; the derivatives checked as they are
+		// gathered, in the order of dst.Val, which is that of the rows:
+		// when one is not finite, the entries before it hold what the
+		// row-by-row loop below writes there again, and those after it
+		// are untouched, as that loop leaves them.
+		if gatherFinite(e.w, prog.eqOut) && gatherFiniteTo(dst.Val, e.d, prog.eqAdj) {
+			if f != nil {
+				gatherTo(f, e.w, prog.eqOut)
+			}
+			return false, nil
+		}
+	} else if gatherFinite(e.w, prog.eqOut) && gatherFinite(e.d, prog.eqAdj) {
 		if f != nil {
 			gatherTo(f, e.w, prog.eqOut)
 		}
@@ -283,6 +295,22 @@ func gatherTo(dst []float64, z []float64, idx []int32) {
 	for i, k := range idx {
 		dst[i] = *at(zp, k)
 	}
+}
+
+// gatherFiniteTo sets dst[i] = z[idx[i]] (z indexed as in gatherFinite)
+// as long as that is finite. It reports whether every one was: when not,
+// dst[i] is set only before the first that is not.
+func gatherFiniteTo(dst []float64, z []float64, idx []int32) bool {
+	zp := unsafe.Pointer(unsafe.SliceData(z))
+	dst = dst[:len(idx)]
+	for i, k := range idx {
+		v := *at(zp, k)
+		if v-v != 0 {
+			return false
+		}
+		dst[i] = v
+	}
+	return true
 }
 
 // allFinite reports whether every element of v is finite: f-f is 0 for a
@@ -460,7 +488,24 @@ func (e *Eval) grad(dx, dp *mat.Dense, tapes []*tape, code *fwdProgram, out []in
 	if pl.needRev {
 		reverse(&rev.seeds, pl.rev, e.d, e.w)
 	}
-	if !gatherFinite(e.w, out) || !gatherFinite(e.d, pl.dIdx) {
+	if !gatherFinite(e.w, out) {
+		return e.gradRows(dx, dp, tapes, code, rev, pl.rev, pl.cols)
+	}
+	if dx == nil {
+		// dp alone, its rows end to end: its derivatives checked as they
+		// are gathered, in the order gradRows writes them. When one is not
+		// finite, the entries before it hold what gradRows writes there
+		// again (it recomputes the same numbers), those after it are
+		// untouched until gradRows fills the rest of that row, as it
+		// would have done alone.
+		if m := dp.RawMatrix(); m.Stride == m.Cols {
+			if !gatherFiniteTo(m.Data, e.d, pl.pIdx) {
+				return e.gradRows(dx, dp, tapes, code, rev, pl.rev, pl.cols)
+			}
+			return nil
+		}
+	}
+	if !gatherFinite(e.d, pl.dIdx) {
 		return e.gradRows(dx, dp, tapes, code, rev, pl.rev, pl.cols)
 	}
 	if dx != nil {

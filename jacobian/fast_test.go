@@ -301,3 +301,73 @@ func TestPlainTapes(t *testing.T) {
 		t.Errorf("plain outputs: dp element %d = %v, want %v", i, dp.RawMatrix().Data[i], wantP[i])
 	}
 }
+
+// TestCheckedGather checks what the fast paths that check derivatives as
+// they gather them (ResidualJacobian, ParamJacobian) leave in their
+// destinations when a derivative is infinite while every value is finite
+// (sqrt at 0): for dF/dp, the general path's (gradRows) numbers bit for
+// bit; for dF/dx, the residuals up to the failing row and the entries before the failing one set,
+// the entries from it on untouched, as the row-by-row path leaves them.
+// An invented system.
+func TestCheckedGather(t *testing.T) {
+	b := &builder{file: "gather.yaml", line: 1}
+	sys := &model.System{
+		Name:     "gather",
+		File:     "gather.yaml",
+		Unknowns: unknowns("x0", "x1"),
+		Params: []model.Symbol{
+			{Name: "p0", Base: "p0", Role: model.RoleParameter, Value: 0},
+			{Name: "p1", Base: "p1", Role: model.RoleParameter, Value: 3},
+		},
+	}
+	sys.Equations = []model.Equation{
+		{Name: "e0", Residual: b.sub(b.mul(b.x(0), b.p(1)), b.call(model.FnSqrt, b.x(1))), Pos: b.pos()},
+		{Name: "e1", Residual: b.sub(b.x(1), b.call(model.FnSqrt, b.p(0))), Pos: b.pos()},
+	}
+	prog := mustCompile(t, sys)
+	const sentinel = 12345.0
+	for _, tc := range []struct {
+		x, p []float64
+		ok   bool
+	}{
+		{[]float64{2, 4}, []float64{1, 3}, true},
+		{[]float64{2, 0}, []float64{1, 3}, false}, // d e0/d x1 infinite
+		{[]float64{2, 4}, []float64{0, 3}, true},  // dF/dx finite, d e1/d p0 infinite
+	} {
+		e := prog.NewEval()
+		f := []float64{sentinel, sentinel}
+		jac := prog.NewJacobian()
+		for k := range jac.Val {
+			jac.Val[k] = sentinel
+		}
+		err := e.ResidualJacobian(f, jac, tc.x, tc.p)
+		if (err == nil) != tc.ok {
+			t.Fatalf("x %v p %v: ResidualJacobian error %v, want ok = %v", tc.x, tc.p, err, tc.ok)
+		}
+		wantF := []float64{tc.x[0]*tc.p[1] - math.Sqrt(tc.x[1]), tc.x[1] - math.Sqrt(tc.p[0])}
+		if !tc.ok {
+			wantF[1] = sentinel // the row-by-row path stops at row 0
+		}
+		if i, ok := sameBits(f, wantF); !ok {
+			t.Errorf("x %v p %v: f[%d] = %v, want %v", tc.x, tc.p, i, f[i], wantF[i])
+		}
+		// Pattern: row 0 (x0, x1), row 1 (x1).
+		wantJ := []float64{tc.p[1], -(0.5 / math.Sqrt(tc.x[1])), 1}
+		if !tc.ok {
+			wantJ = []float64{tc.p[1], sentinel, sentinel}
+		}
+		if i, ok := sameBits(jac.Val, wantJ); !ok {
+			t.Errorf("x %v p %v: dF/dx entry %d = %v, want %v", tc.x, tc.p, i, jac.Val[i], wantJ[i])
+		}
+		for _, cols := range [][]int{{0, 1}, {1, 0, 1}} {
+			got, want := nanDense(2, len(cols)), nanDense(2, len(cols))
+			err := e.ParamJacobian(got, tc.x, tc.p, cols)
+			slow := prog.NewEval()
+			slow.check(tc.x, tc.p)
+			rev := prog.eqRev
+			rev.p = flatten(paramBatches(prog.eqs, rev.sweeps, cols, 2))
+			werr := slow.gradRows(nil, want, prog.eqs, prog.eqFwd, &rev, &rev.p, cols)
+			compareDense(t, fmt.Sprint("ParamJacobian ", cols, " x ", tc.x, " p ", tc.p), got, want, err, werr)
+		}
+	}
+}
