@@ -552,7 +552,7 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 		panic("sparse: solve with a failed factorisation")
 	}
 	if !trans {
-		if n == 2 {
+		if n == 2 && f.two.ok {
 			f.solve2(dst, b)
 			return
 		}

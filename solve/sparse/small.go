@@ -145,25 +145,18 @@ func (f *LU) refactor2(val []float64) error {
 	return nil
 }
 
-// solve2 is solveN for n = 2.
+// solve2 is solveN for n = 2, for a factorisation with f.two.ok; dst and b
+// have length 2.
 func (f *LU) solve2(dst, b []float64) {
-	t := &f.two
-	if !t.ok {
-		f.solveN(dst, b, make([]float64, 2))
-		return
+	// L(1,0) and U(0,1), when there, are the only entries of lx and ux
+	// (plan2 sets f.two.l = f.two.u = 0).
+	w0, w1 := b[f.two.p[0]], b[f.two.p[1]]
+	if w0 != 0 && f.two.hasL {
+		w1 -= f.lx[0] * w0
 	}
-	// The pivot positions are 0 and 1 (plan2 checked them): masked, they
-	// index b and dst, resliced to 2, without bounds checks.
-	b, dst = b[:2], dst[:2]
-	udiag := f.udiag[:2]
-	w0, w1 := b[t.p[0]&1], b[t.p[1]&1]
-	if w0 != 0 && t.hasL {
-		w1 -= f.lx[t.l] * w0
+	w1 /= f.udiag[1]
+	if w1 != 0 && f.two.hasU {
+		w0 -= f.ux[0] * w1
 	}
-	w1 /= udiag[1]
-	if w1 != 0 && t.hasU {
-		w0 -= f.ux[t.u] * w1
-	}
-	w0 /= udiag[0]
-	dst[t.q[0]&1], dst[t.q[1]&1] = w0, w1
+	dst[f.two.q[0]], dst[f.two.q[1]] = w0/f.udiag[0], w1
 }
