@@ -689,11 +689,13 @@ func (s *solver) setScales() {
 	for i := range scale {
 		k1 := rowPtr[i+1]
 		m := 0.0
-		vals := jval[k0:k1]
-		for k, c := range colIdx[k0:k1] {
+		// Indexed from k0 to k1 rather than over subslices of jval and
+		// colIdx: for the row or two of a small system, slicing costs
+		// more than the bounds checks it saves.
+		for k := k0; k < k1; k++ {
 			// max(m, v) for v >= 0 or NaN, NaN once either is, as the
 			// built-in gives it, without its call.
-			if v := math.Abs(vals[k]) * typ[c]; v > m || v != v {
+			if v := math.Abs(jval[k]) * typ[colIdx[k]]; v > m || v != v {
 				m = v
 			}
 		}

@@ -168,6 +168,15 @@ func (f *LU) RefactorValues(val []float64) error {
 	if f.rowPtr == nil || len(val) < len(f.colIdx) {
 		panic("sparse: RefactorValues: no pattern analysed, or too few values")
 	}
+	// Order 2 with kept pivots (f.two.ok holds only then, in sparse mode):
+	// refactor2 without the dispatch of refactorValues.
+	if f.two.ok {
+		if f.refactor2(val) == nil {
+			f.refactored++
+			return nil
+		}
+		return f.factorValues(val)
+	}
 	return f.refactorValues(val)
 }
 
@@ -190,6 +199,12 @@ func (f *LU) refactorValues(val []float64) error {
 			return nil
 		}
 	}
+	return f.factorValues(val)
+}
+
+// factorValues gathers the CSR values val and factors them afresh, with new
+// pivots.
+func (f *LU) factorValues(val []float64) error {
 	f.gather(&CSR{Rows: f.n, Cols: f.n, RowPtr: f.rowPtr, ColIdx: f.colIdx, Val: val})
 	return f.factor()
 }
@@ -496,6 +511,12 @@ func (f *LU) SolveWith(w, dst, b []float64) {
 	if len(w) != f.n {
 		panic("sparse: SolveWith: work space of the wrong length")
 	}
+	// Order 2 (f.two.ok holds only for a factorisation in sparse mode with
+	// its pivots): solve2 without the dispatch of solve.
+	if f.two.ok && len(dst) == 2 && len(b) == 2 {
+		f.solve2(dst, b)
+		return
+	}
 	f.solve(dst, b, w, false)
 }
 
@@ -531,7 +552,7 @@ func (f *LU) solve(dst, b, w []float64, trans bool) {
 		panic("sparse: solve with a failed factorisation")
 	}
 	if !trans {
-		if n == 2 {
+		if n == 2 && f.two.ok {
 			f.solve2(dst, b)
 			return
 		}

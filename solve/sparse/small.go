@@ -75,19 +75,22 @@ func (f *LU) refactor2(val []float64) error {
 	}
 	tau := f.tau
 
-	// Column 0 of the elimination.
+	// Column 0 of the elimination, its one or two entries written out. For
+	// the first, maxAbs(0, v) and 0 + |v| are |v| to the bit (|v| is +0,
+	// positive or NaN), and so is ||A||₁ so far (max(0, sum) as refactor
+	// takes it: sum is not negative).
 	var x [2]float64
-	scale, sum := 0.0, 0.0
-	for e := range t.ne[0] & 3 {
-		v := val[t.src[0][e&1]]
-		x[t.pos[0][e&1]&1] = v
+	v := val[t.src[0][0]]
+	x[t.pos[0][0]&1] = v
+	scale := math.Abs(v)
+	sum := scale
+	if t.ne[0] == 2 {
+		v := val[t.src[0][1]]
+		x[t.pos[0][1]&1] = v
 		scale = maxAbs(scale, v)
 		sum += math.Abs(v)
 	}
-	anorm := 0.0
-	if sum > anorm || math.IsNaN(sum) {
-		anorm = sum
-	}
+	anorm := sum
 	pivot := x[0]
 	ap := math.Abs(pivot)
 	amax := ap
@@ -105,10 +108,13 @@ func (f *LU) refactor2(val []float64) error {
 
 	// Column 1.
 	x = [2]float64{}
-	scale, sum = 0.0, 0.0
-	for e := range t.ne[1] & 3 {
-		v := val[t.src[1][e&1]]
-		x[t.pos[1][e&1]&1] = v
+	v = val[t.src[1][0]]
+	x[t.pos[1][0]&1] = v
+	scale = math.Abs(v)
+	sum = scale
+	if t.ne[1] == 2 {
+		v := val[t.src[1][1]]
+		x[t.pos[1][1]&1] = v
 		scale = maxAbs(scale, v)
 		sum += math.Abs(v)
 	}
@@ -126,33 +132,31 @@ func (f *LU) refactor2(val []float64) error {
 	if t.hasL {
 		f.lx[t.l] = l10
 	}
-	f.udiag[0] = u00
+	udiag := f.udiag[:2]
+	udiag[0] = u00
 	pivot = x[1]
 	ap = math.Abs(pivot)
 	amax = ap
 	if !(ap >= tau*amax) || !(ap > tiny*maxAbs(scale, amax)) || ap > math.MaxFloat64 {
 		return errPivot
 	}
-	f.udiag[1] = pivot
+	udiag[1] = pivot
 	f.anorm = anorm
 	return nil
 }
 
-// solve2 is solveN for n = 2.
+// solve2 is solveN for n = 2, for a factorisation with f.two.ok; dst and b
+// have length 2.
 func (f *LU) solve2(dst, b []float64) {
-	t := &f.two
-	if !t.ok {
-		f.solveN(dst, b, make([]float64, 2))
-		return
-	}
-	w0, w1 := b[t.p[0]], b[t.p[1]]
-	if w0 != 0 && t.hasL {
-		w1 -= f.lx[t.l] * w0
+	// L(1,0) and U(0,1), when there, are the only entries of lx and ux
+	// (plan2 sets f.two.l = f.two.u = 0).
+	w0, w1 := b[f.two.p[0]], b[f.two.p[1]]
+	if w0 != 0 && f.two.hasL {
+		w1 -= f.lx[0] * w0
 	}
 	w1 /= f.udiag[1]
-	if w1 != 0 && t.hasU {
-		w0 -= f.ux[t.u] * w1
+	if w1 != 0 && f.two.hasU {
+		w0 -= f.ux[0] * w1
 	}
-	w0 /= f.udiag[0]
-	dst[t.q[0]], dst[t.q[1]] = w0, w1
+	dst[f.two.q[0]], dst[f.two.q[1]] = w0/f.udiag[0], w1
 }

@@ -66,6 +66,28 @@ func TestSmallPathsMatchGeneral(t *testing.T) {
 			errG := gen.refactor(a.Val)
 			errS := small.refactor2(a.Val)
 			checked++
+			// The public entry points (RefactorValues, SolveWith), which
+			// take the order-2 paths directly, against refactorValues
+			// and solveN without the plan (the general code), fresh
+			// factorisation after a failed kept pivot included.
+			pub, ref := new(LU), new(LU)
+			pub.CopyFrom(base)
+			ref.CopyFrom(base)
+			ref.two.ok = false
+			ref.work = make([]float64, 2)
+			errP, errR := pub.RefactorValues(a.Val), ref.refactorValues(a.Val)
+			if (errP == nil) != (errR == nil) {
+				t.Fatalf("pattern %04b values %v: RefactorValues error %v, general %v", mask, a.Val, errP, errR)
+			}
+			if errP == nil {
+				b := []float64{value(), value()}
+				x1, x2 := make([]float64, 2), make([]float64, 2)
+				ref.solveN(x1, b, make([]float64, 2))
+				pub.SolveWith(make([]float64, 2), x2, b)
+				if !sameBitsF(x1, x2) {
+					t.Fatalf("pattern %04b values %v b %v: SolveWith %v, general %v", mask, a.Val, b, x2, x1)
+				}
+			}
 			if (errG == nil) != (errS == nil) {
 				t.Fatalf("pattern %04b values %v: general error %v, order-2 path %v", mask, a.Val, errG, errS)
 			}
