@@ -110,7 +110,7 @@ func FromModel(ctx context.Context, sys *model.System, prog *jacobian.Program, o
 		return nil, fmt.Errorf("the nominal point does not solve, so there is nothing to continue from: %w", err)
 	}
 	start := res.X
-	a, _, err := w.analyse(start, nominal)
+	a, _, err := w.analyse(start, nominal, w.plainOutputs(start))
 	if err != nil {
 		return nil, fmt.Errorf("the nominal point: %w", err)
 	}
@@ -372,7 +372,7 @@ func (m *modelRun) newWorker() *modelWorker {
 		Residual: func(f, x []float64) error { return w.eval.Residual(f, x, w.p) },
 		ResidualJacobian: func(f, jval, x []float64) error {
 			j := &w.jac
-			if len(j.Val) != len(jval) || len(jval) == 0 || &j.Val[0] != &jval[0] {
+			if !sameArray(j.Val, jval) {
 				j.Val = jval // the solver's own array, the same call after call
 			}
 			return w.eval.ResidualJacobian(f, j, x, w.p)
@@ -411,7 +411,7 @@ func (m *modelRun) newWorker() *modelWorker {
 // when that does not converge quickly it solves from the neighbour's state
 // with the solver's full strategy (blocks, homotopy), as from any guess.
 func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *Record) (State, error) {
-	if len(w.p) != len(p) || len(p) == 0 || &w.p[0] != &p[0] {
+	if !sameArray(w.p, p) {
 		w.p = p // a chain hands the same slice point after point: no write barrier then
 	}
 	if from.ChainStart {
@@ -431,13 +431,13 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	var err error
 	iters := 0
 	n, no, ni, np := len(w.xpred), len(w.m.outputs), len(w.m.inputs), len(w.m.interest)
-	// One backing array for the state (solved into it), the record's
-	// numbers and the state's tangent.
 	var ft *tangentData // the tangent data of from, if it has any
 	t, ok := w.tangentOf(from)
 	if ok {
 		ft = &t // a local only read through: no write barriers
 	}
+	// One backing array for the state (solved into it), the record's
+	// numbers and the state's tangent.
 	buf := w.take(n + no + 2*no*ni + np + w.tangentSize(from, ft))
 	var res solve.Result // on the stack: no write barriers
 	solved := false
@@ -460,11 +460,12 @@ func (w *modelWorker) Point(ctx context.Context, p []float64, from State, rec *R
 	buf = buf[n:]
 	st := State{X: x}
 	rec.Outside = w.outside(x, p)
-	a, k, err := w.analyse(x, p)
+	plain := w.plainOutputs(x)
+	a, k, err := w.analyse(x, p, plain)
 	if err != nil {
 		return st, err
 	}
-	if w.m.outVar != nil && w.finiteOutputs(x) {
+	if plain {
 		for i, v := range w.m.outVar {
 			w.y[i] = x[v]
 		}
@@ -557,9 +558,9 @@ type tangentData struct {
 }
 
 // tangentOf returns the tangent data of the state from, and whether it has
-// any. The slices are cut from from.Tangent each time: the result is meant
-// for local variables (storing slices in the worker would cost a write
-// barrier per slice while the garbage collector marks).
+// any. The slices are cut from from.Tangent; the result is meant for a
+// local variable (storing slices in the worker would cost a write barrier
+// per slice while the garbage collector marks).
 func (w *modelWorker) tangentOf(from State) (tangentData, bool) {
 	var d tangentData
 	t, na, n := from.Tangent, len(w.m.axes), len(from.X)
@@ -704,8 +705,9 @@ func (w *modelWorker) pairingName(pr interact.Pairing) string {
 // function theorem, K = dy/dx (-Fx⁻¹ Fu) + dy/du, in display units, and
 // the interaction analysis of it. It also leaves dx/dp of each axis in
 // w.dxda for predicting the next points. The Jacobian is the solver's, at
-// the solution of its last Solve.
-func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, error) {
+// the solution of its last Solve. plain is plainOutputs(x): dy/dx and
+// dy/du are then known without evaluating them.
+func (w *modelWorker) analyse(x, p []float64, plain bool) (*interact.Analysis, *mat.Dense, error) {
 	m := w.m
 	n, no, ni := len(m.sys.Unknowns), len(m.outputs), len(m.inputs)
 	jval, err := w.sol.Jacobian(x)
@@ -724,7 +726,6 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	if err := w.eval.ParamJacobian(w.fp, x, p, m.pcols); err != nil {
 		return nil, nil, err
 	}
-	plain := m.outVar != nil && w.finiteOutputs(x)
 	if !plain {
 		if err := w.eval.OutputGradients(w.dydx, w.dydu, x, p, m.sys.Inputs); err != nil {
 			return nil, nil, err
@@ -777,10 +778,14 @@ func (w *modelWorker) analyse(x, p []float64) (*interact.Analysis, *mat.Dense, e
 	return a, k, nil
 }
 
-// finiteOutputs reports whether the unknowns that are the outputs (see
-// modelRun.outVar) are finite at x; where one is not, the evaluations say
-// so in their own words.
-func (w *modelWorker) finiteOutputs(x []float64) bool {
+// plainOutputs reports whether the outputs can be taken at x without
+// evaluation: every output is a plain unknown (see modelRun.outVar) and
+// finite there (where one is not, the evaluations say so in their own
+// words).
+func (w *modelWorker) plainOutputs(x []float64) bool {
+	if w.m.outVar == nil {
+		return false
+	}
 	for _, v := range w.m.outVar {
 		if math.IsInf(x[v], 0) || math.IsNaN(x[v]) {
 			return false
@@ -888,4 +893,11 @@ func copyf(dst, src []float64) {
 	for i, v := range src {
 		dst[i] = v
 	}
+}
+
+// sameArray reports whether a and b are the same slice of the same array,
+// so that storing b where a is would change nothing (and the store, with
+// its write barrier while the collector marks, can be skipped).
+func sameArray(a, b []float64) bool {
+	return len(a) == len(b) && (len(a) == 0 || &a[0] == &b[0])
 }
